@@ -1,0 +1,1 @@
+"""Command-line front end of polarsky: a thin layer of click commands over the library."""
