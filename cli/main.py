@@ -22,6 +22,7 @@ COMMAND_MODULES = [
     "stokes",
     "advise",
     "demo",
+    "calibrate",
 ]
 
 
