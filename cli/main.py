@@ -23,6 +23,7 @@ COMMAND_MODULES = [
     "advise",
     "demo",
     "calibrate",
+    "batch",
 ]
 
 

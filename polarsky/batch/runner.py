@@ -1,0 +1,440 @@
+"""Run every bracket of a folder tree on dask, keep what is done, report the rest.
+
+The driver (:func:`run_batch`) discovers brackets, starts or joins a dask.distributed
+cluster, submits one task per bracket and gathers one summary row per bracket.  The task
+(:func:`process_bracket`, run on a worker) hashes the bracket's inputs and settings, skips
+it when a complete output folder with the same hash exists, and otherwise runs the library
+steps (``polarsky.pipeline.run_stokes``, ``polarsky.advice.run_advise``,
+``polarsky.sky.run_sky``) into ``DIR/.polarsky-tmp/<name>.<pid>.<random>/``, makes the
+report thumbnails, writes ``batch.json`` last and renames the folder to ``DIR/<name>``.
+
+A bracket that fails (unreadable or corrupt frame, missing frame, bad geometry, ...) gets
+status ``failed`` and the reason; the other brackets go on.  A local cluster listens on
+127.0.0.1 only, keeps its scratch space in ``DIR/.polarsky-scratch`` and has no dashboard
+unless asked (then on 127.0.0.1 with a free port).
+"""
+
+from __future__ import annotations
+
+import contextlib
+import csv
+import io
+import json
+import logging
+import os
+import shutil
+import sys
+import time
+import uuid
+import warnings
+from pathlib import Path
+
+from .._version import __version__
+from ..errors import InputError, PolarskyWarning, one_line
+from . import state
+from .config import accepted_keywords
+from .discover import Bracket, discover_brackets
+
+__all__ = ["run_batch", "list_brackets", "process_bracket", "SUMMARY_COLUMNS", "step_functions"]
+
+SCRATCH_DIR = ".polarsky-scratch"
+LOCK_FILE = ".polarsky-batch.lock"
+
+#: Columns of summary.csv, in order.
+SUMMARY_COLUMNS = [
+    "name", "status", "error", "frames", "angles_deg", "mean_dolp", "best_angle_deg",
+    "reduction_stops", "sky_dolp_residual_rms", "sky_aolp_residual_rms_deg", "time_s",
+    "source", "rule", "warnings",
+]
+
+
+# ------------------------------------------------------------------------------ library steps
+def step_functions():
+    """The library functions the batch calls: ``(run_stokes, run_advise or None, run_sky or None)``."""
+    try:
+        from ..pipeline import run_stokes
+    except ImportError:  # TEMPORARY until the core lands
+        from ._fallback import run_stokes
+    try:
+        from ..advice import run_advise
+    except ImportError:
+        run_advise = None
+    try:
+        from ..sky import run_sky
+    except ImportError:
+        run_sky = None
+    return run_stokes, run_advise, run_sky
+
+
+def _stokes_options(settings: dict, bracket: Bracket) -> dict:
+    st = settings["stokes"]
+    opts = {k: v for k, v in st.items() if v is not None and k != "demosaic"}
+    if st.get("demosaic") is not None:
+        opts["demosaic"] = st["demosaic"]
+    if bracket.manifest is not None:
+        opts["manifest"] = str(bracket.manifest)
+    else:
+        opts["angles_deg"] = list(bracket.angles_deg) if bracket.angles_deg is not None else None
+    return opts
+
+
+def _accepts_demosaic(run_stokes) -> bool:
+    names = accepted_keywords(run_stokes)
+    if names is not None:
+        return "demosaic" in names
+    try:  # run_stokes(**options) forwards bracket options to the pipeline's option lists
+        from .. import pipeline
+    except ImportError:
+        return False
+    keys = tuple(getattr(pipeline, "_BRACKET_KEYS", ())) + tuple(getattr(pipeline, "_SETTING_KEYS", ()))
+    return "demosaic" in keys
+
+
+def check_steps(settings: dict) -> None:
+    """Fail early (InputError) when the settings ask for something this install cannot do."""
+    run_stokes, run_advise, run_sky = step_functions()
+    if settings["stokes"].get("demosaic") is not None and not _accepts_demosaic(run_stokes):
+        raise InputError("demosaic is set but this polarsky's Stokes step has no demosaicing option; "
+                         "remove [stokes] demosaic (or --demosaic)")
+    if settings["advise"]["region"] is not None and run_advise is None:
+        raise InputError("advice is configured ([advise] region) but polarsky.advice is not available "
+                         "in this installation; remove the [advise] table")
+    if settings["sky"]:
+        if run_sky is None:
+            raise InputError("a sky comparison is configured ([sky] table) but polarsky.sky.run_sky is not "
+                             "available in this installation; remove the [sky] table or update polarsky")
+        allowed = accepted_keywords(run_sky)
+        if allowed is not None:
+            bad = sorted(k for k in settings["sky"] if k not in allowed)
+            if bad:
+                raise InputError(f"unknown key(s) in [sky]: {', '.join(bad)}; "
+                                 f"run_sky accepts {', '.join(sorted(allowed - {'frames', 'out_dir'}))}")
+
+
+# ------------------------------------------------------------------------------ worker side
+def _mean_dolp(summary, folder: Path):
+    if isinstance(summary, dict):
+        for key in ("mean_dolp", "dolp_mean"):
+            v = summary.get(key)
+            if isinstance(v, dict):  # per channel: the mean over the channels
+                vals = [float(x) for x in v.values() if isinstance(x, (int, float))]
+                v = sum(vals) / len(vals) if vals else None
+            if isinstance(v, (int, float)):
+                return float(v)
+        d = summary.get("dolp")
+        if isinstance(d, dict):
+            for key in ("mean", "mean_valid"):
+                if isinstance(d.get(key), (int, float)):
+                    return float(d[key])
+    nc = folder / "stokes.nc"
+    if nc.is_file():
+        import xarray as xr
+
+        with xr.open_dataset(nc, chunks={}) as ds:
+            dolp = ds["dolp"]
+            if "valid" in ds:
+                dolp = dolp.where(ds["valid"])
+            return float(dolp.mean().compute())
+    return None
+
+
+def _find_number(d, *words):
+    """First numeric value in a (nested) dict whose key contains every word."""
+    if not isinstance(d, dict):
+        return None
+    for k, v in d.items():
+        if isinstance(v, (int, float)) and not isinstance(v, bool) and all(w in k.lower() for w in words):
+            return float(v)
+    for v in d.values():
+        if isinstance(v, dict):
+            found = _find_number(v, *words)
+            if found is not None:
+                return found
+    return None
+
+
+def _row(bracket: Bracket, **values) -> dict:
+    row = {c: "" for c in SUMMARY_COLUMNS}
+    row.update(name=bracket.name, frames=len(bracket.frames), source=bracket.label, rule=bracket.rule,
+               angles_deg=";".join(f"{a:g}" for a in bracket.angles_deg) if bracket.angles_deg else "")
+    row.update({k: v for k, v in values.items() if v is not None})
+    return row
+
+
+def _region_text(value):
+    """A box as the text ``x0,y0,x1,y1``; a mask path unchanged; None stays None."""
+    if value is None or isinstance(value, str):
+        return value
+    return ",".join(str(int(v)) for v in value)
+
+
+def _reason(exc: BaseException) -> str:
+    if isinstance(exc, InputError):
+        return str(exc)
+    return one_line(f"{type(exc).__name__}: {exc}")
+
+
+def _input_files(bracket: Bracket, settings: dict):
+    files = list(bracket.frames)
+    if bracket.manifest is not None:
+        files.append(bracket.manifest)
+    if settings["stokes"].get("calibration"):
+        files.append(Path(settings["stokes"]["calibration"]))
+    for key in ("region", "protect"):
+        if isinstance(settings["advise"].get(key), str):
+            files.append(Path(settings["advise"][key]))
+    return files
+
+
+def _key_settings(bracket: Bracket, settings: dict) -> dict:
+    d = bracket.as_dict()
+    d.pop("reason")
+    d["frames"] = [Path(f).name for f in bracket.frames]
+    d["manifest"] = Path(bracket.manifest).name if bracket.manifest else None
+    return {"bracket": d, "stokes": settings["stokes"], "advise": settings["advise"], "sky": settings["sky"],
+            "thumbnail_px": settings["report"]["thumbnail_px"]}
+
+
+def process_bracket(task: dict) -> dict:
+    """Process one bracket (runs on a dask worker); return its summary row.
+
+    ``task`` holds ``bracket`` (a :class:`Bracket`), ``out_dir``, ``settings`` and
+    ``run_id``.  Never raises for a problem of the bracket itself: that is a failed row.
+    """
+    t0 = time.perf_counter()
+    bracket: Bracket = task["bracket"]
+    settings = task["settings"]
+    out_dir = Path(task["out_dir"]).resolve()
+    final = (out_dir / bracket.name).resolve()
+    if final.parent != out_dir or bracket.name.startswith("."):  # never write outside DIR
+        return _row(bracket, status="failed", error=f"unsafe bracket name {bracket.name!r}")
+    if bracket.problem:
+        return _row(bracket, status="failed", error=bracket.problem,
+                    time_s=round(time.perf_counter() - t0, 3))
+    try:
+        key = state.bracket_key(_input_files(bracket, settings), _key_settings(bracket, settings), __version__)
+    except OSError as exc:
+        return _row(bracket, status="failed", error=f"cannot read the inputs: {exc}")
+    marker = state.read_complete(final)
+    if marker is not None and marker.get("key") == key:
+        row = dict(marker["row"])
+        row["status"] = "skipped"
+        return row
+    tmp = out_dir / state.TMP_DIR / f"{bracket.name}.{os.getpid()}.{uuid.uuid4().hex[:12]}"
+    tmp.mkdir(parents=True)
+    caught = []
+    try:
+        run_stokes, run_advise, run_sky = step_functions()
+        opts = _stokes_options(settings, bracket)
+        frames = [str(f) for f in bracket.frames]
+        with warnings.catch_warnings(record=True) as caught:
+            warnings.simplefilter("always", PolarskyWarning)
+            summary = run_stokes(frames, tmp, **opts)
+            values = {"mean_dolp": _mean_dolp(summary, tmp)}
+            advice = None
+            adv = settings["advise"]
+            if adv["region"] is not None:
+                region, protect = _region_text(adv["region"]), _region_text(adv["protect"])
+                advice = run_advise(frames, tmp, region=region, protect=protect, **opts)
+                values["best_angle_deg"] = _find_number(advice, "best_angle_deg")
+                values["reduction_stops"] = _find_number(advice, "reduction_stops")
+            if settings["sky"]:
+                sky = run_sky(frames, tmp, **{**opts, **settings["sky"]})
+                values["sky_dolp_residual_rms"] = (_find_number(sky, "dolp", "residual", "rms")
+                                                   or _find_number(sky, "dolp", "residual"))
+                values["sky_aolp_residual_rms_deg"] = (_find_number(sky, "aolp", "residual", "rms")
+                                                       or _find_number(sky, "aolp", "residual"))
+        from .report import make_thumbnails
+
+        make_thumbnails(tmp, frames, px=settings["report"]["thumbnail_px"],
+                        best_angle_deg=values.get("best_angle_deg"))
+        for k in ("mean_dolp", "best_angle_deg", "reduction_stops", "sky_dolp_residual_rms",
+                  "sky_aolp_residual_rms_deg"):
+            if isinstance(values.get(k), float):
+                values[k] = round(values[k], 6)
+        warn_text = " | ".join(sorted({one_line(str(w.message)) for w in caught
+                                       if issubclass(w.category, PolarskyWarning)}))
+        row = _row(bracket, status="done", warnings=warn_text, **values)
+        row["time_s"] = round(time.perf_counter() - t0, 3)
+        state.write_marker(tmp, key=key, row=row, run_id=task["run_id"])
+        try:
+            state.publish(tmp, final)
+        except OSError:
+            # Another process finished the same bracket meanwhile; keep its folder if it matches.
+            other = state.read_complete(final)
+            if other is None or other.get("key") != key:
+                raise
+        return row
+    except Exception as exc:  # a failing bracket must not stop the batch
+        return _row(bracket, status="failed", error=_reason(exc), time_s=round(time.perf_counter() - t0, 3))
+    finally:
+        if tmp.exists():
+            shutil.rmtree(tmp, ignore_errors=True)
+
+
+# ------------------------------------------------------------------------------ driver side
+def list_brackets(root, out_dir=None, *, settings) -> list[Bracket]:
+    """Discover the brackets of ``root`` with the batch settings (``out_dir`` is not searched)."""
+    d = settings["discovery"]
+    return discover_brackets(root, time_gap_s=d["time_gap_s"], angles_deg=d["angles_deg"],
+                             manifest_name=d["manifest_name"],
+                             exclude_dirs=[out_dir] if out_dir is not None else [])
+
+
+@contextlib.contextmanager
+def _lock(out_dir: Path):
+    import fcntl
+
+    fh = open(out_dir / LOCK_FILE, "a+")
+    try:
+        try:
+            fcntl.flock(fh, fcntl.LOCK_EX | fcntl.LOCK_NB)
+        except OSError:
+            raise InputError(f"another batch is writing to {out_dir}; wait for it or choose another --out") from None
+        yield
+    finally:
+        fh.close()
+
+
+@contextlib.contextmanager
+def batch_client(*, workers: int, scheduler: str | None, scratch: Path, dashboard: bool = False):
+    """A dask ``Client``: on ``scheduler`` if given, else on a new loopback-only LocalCluster."""
+    from distributed import Client, LocalCluster
+
+    if scheduler:
+        try:
+            client = Client(scheduler, timeout="10s")
+        except (OSError, TimeoutError) as exc:
+            raise InputError(f"cannot reach the dask scheduler at {scheduler} ({one_line(exc)}); "
+                             "start it with 'dask scheduler' or check --scheduler") from None
+        try:
+            yield client
+        finally:
+            client.close()
+        return
+    scratch.mkdir(parents=True, exist_ok=True)
+    cluster = LocalCluster(n_workers=workers, threads_per_worker=1, processes=True, host="127.0.0.1",
+                           dashboard_address="127.0.0.1:0" if dashboard else None,
+                           worker_dashboard_address=None, local_directory=str(scratch),
+                           silence_logs=logging.CRITICAL)
+    try:
+        client = Client(cluster)
+        try:
+            yield client
+        finally:
+            client.close()
+    finally:
+        cluster.close()
+
+
+def write_summary_csv(path, rows) -> None:
+    buf = io.StringIO()
+    w = csv.DictWriter(buf, fieldnames=SUMMARY_COLUMNS, extrasaction="ignore", lineterminator="\n")
+    w.writeheader()
+    for r in rows:
+        w.writerow(r)
+    state.atomic_write_text(path, buf.getvalue())
+
+
+def run_batch(root, out_dir, *, settings: dict, workers: int | None = None, scheduler: str | None = None,
+              client=None, progress: bool = False, dashboard: bool = False, on_dashboard=None) -> dict:
+    """Process every bracket under ``root`` into ``out_dir``; return the batch result.
+
+    Parameters
+    ----------
+    root, out_dir : path
+        Input folder tree (read only) and output folder (created).
+    settings : dict
+        From :func:`polarsky.batch.config.merge_settings`.
+    workers : int, optional
+        Worker processes of the local cluster (default: CPU count, at most one per bracket).
+    scheduler : str, optional
+        Address of an existing dask.distributed scheduler (``tcp://host:port``); the
+        workers must see ``root`` and ``out_dir`` under the same paths.
+    client : distributed.Client, optional
+        Use this client (for tests and embedding) instead of making one.
+    progress : bool
+        Show a tqdm progress bar on stderr.
+
+    Returns
+    -------
+    dict
+        ``rows`` (one dict per bracket, discovery order), counts ``done``, ``skipped``,
+        ``failed``, the paths ``summary_csv`` and ``report_html``, and ``elapsed_s``.
+    """
+    t0 = time.perf_counter()
+    root = Path(root)
+    out_dir = Path(out_dir)
+    try:
+        out_dir.mkdir(parents=True, exist_ok=True)
+    except OSError as exc:
+        raise InputError(f"cannot create the output folder {out_dir}: {exc.strerror}") from None
+    out_dir = out_dir.resolve()
+    check_steps(settings)
+    brackets = list_brackets(root, out_dir, settings=settings)
+    run_id = f"{time.strftime('%Y%m%dT%H%M%S')}-{uuid.uuid4().hex[:8]}"
+    rows: dict[int, dict] = {}
+    with _lock(out_dir):
+        shutil.rmtree(out_dir / state.TMP_DIR, ignore_errors=True)  # leftovers of a killed run
+        if brackets:
+            tasks = [{"bracket": b, "out_dir": str(out_dir), "settings": settings, "run_id": run_id}
+                     for b in brackets]
+            n_workers = workers or min(os.cpu_count() or 1, len(brackets))
+            with contextlib.ExitStack() as stack:
+                if client is None:
+                    client = stack.enter_context(batch_client(
+                        workers=n_workers, scheduler=scheduler, scratch=out_dir / SCRATCH_DIR,
+                        dashboard=dashboard))
+                    if dashboard and on_dashboard is not None and client.dashboard_link:
+                        on_dashboard(client.dashboard_link)
+                rows = _gather(client, tasks, run_id, progress)
+        shutil.rmtree(out_dir / state.TMP_DIR, ignore_errors=True)
+        shutil.rmtree(out_dir / SCRATCH_DIR, ignore_errors=True)
+        ordered = [rows[i] for i in range(len(brackets))]
+        write_summary_csv(out_dir / "summary.csv", ordered)
+        from .report import write_report
+
+        notes = []
+        if settings["sky"]:
+            notes.append("Caution: never look at the sun through a viewfinder or optics and do not aim "
+                         "sensors at it; follow local codes and licensed practice for work at height or near water.")
+        write_report(out_dir / "report.html", ordered, out_dir=out_dir,
+                     title=f"polarsky batch: {root.resolve().name}", notes=notes,
+                     embed_images=settings["report"]["embed_images"])
+    counts = {s: sum(r["status"] == s for r in ordered) for s in ("done", "skipped", "failed")}
+    return {"root": str(root.resolve()), "out": str(out_dir), "brackets": len(ordered), **counts,
+            "summary_csv": str(out_dir / "summary.csv"), "report_html": str(out_dir / "report.html"),
+            "elapsed_s": round(time.perf_counter() - t0, 3), "rows": ordered}
+
+
+def _gather(client, tasks, run_id, progress) -> dict[int, dict]:
+    from distributed import as_completed
+    from tqdm import tqdm
+
+    futures = {}
+    for i, task in enumerate(tasks):
+        f = client.submit(process_bracket, task, key=f"polarsky-bracket-{run_id}-{i}", pure=False,
+                          priority=-i)
+        futures[f] = i
+    rows: dict[int, dict] = {}
+    counts = {"done": 0, "skipped": 0, "failed": 0}
+    bar = tqdm(total=len(tasks), unit="bracket", file=sys.stderr, disable=not progress,
+               dynamic_ncols=True, smoothing=0.1)
+    try:
+        for f in as_completed(list(futures)):
+            i = futures[f]
+            try:
+                row = f.result()
+            except Exception as exc:  # the task itself died (e.g. its worker was killed repeatedly)
+                row = _row(tasks[i]["bracket"], status="failed", error=_reason(exc))
+            rows[i] = row
+            counts[row["status"]] += 1
+            bar.set_postfix(counts, refresh=False)
+            bar.update(1)
+    finally:
+        bar.close()
+    return rows
+
+
+def result_json(result: dict) -> str:
+    return json.dumps(result, sort_keys=False, default=str)
