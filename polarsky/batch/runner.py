@@ -297,13 +297,14 @@ def _lock(out_dir: Path):
 
 
 @contextlib.contextmanager
-def batch_client(*, workers: int, scheduler: str | None, scratch: Path, dashboard: bool = False):
+def batch_client(*, workers: int, scheduler: str | None, scratch: Path, dashboard: bool = False,
+                 connect_timeout_s: float = 10.0):
     """A dask ``Client``: on ``scheduler`` if given, else on a new loopback-only LocalCluster."""
     from distributed import Client, LocalCluster
 
     if scheduler:
         try:
-            client = Client(scheduler, timeout="10s")
+            client = Client(scheduler, timeout=f"{connect_timeout_s}s")
         except (OSError, TimeoutError) as exc:
             raise InputError(f"cannot reach the dask scheduler at {scheduler} ({one_line(exc)}); "
                              "start it with 'dask scheduler' or check --scheduler") from None
@@ -313,8 +314,10 @@ def batch_client(*, workers: int, scheduler: str | None, scratch: Path, dashboar
             client.close()
         return
     scratch.mkdir(parents=True, exist_ok=True)
+    # The scheduler always runs a small HTTP server (health checks); bind it to a free
+    # loopback port too, and serve the dashboard pages on it only when asked.
     cluster = LocalCluster(n_workers=workers, threads_per_worker=1, processes=True, host="127.0.0.1",
-                           dashboard_address="127.0.0.1:0" if dashboard else None,
+                           dashboard_address="127.0.0.1:0", scheduler_kwargs={"dashboard": bool(dashboard)},
                            worker_dashboard_address=None, local_directory=str(scratch),
                            silence_logs=logging.CRITICAL)
     try:
