@@ -47,10 +47,12 @@ def _angles(text):
 @click.option("--calibration", type=click.Path(path_type=Path), help="Calibration file (CAL.nc).")
 @click.option("--max-pixels", type=int, help="Downsample frames larger than this many pixels.")
 @click.option("--demosaic", help="Demosaicing method for polarization-mosaic frames.")
+@click.option("--pictures/--no-pictures", default=None, help="Write the PNG maps per bracket (default on).")
 @click.option("--region", help="Advice for every bracket: region box x0,y0,x1,y1 (x1,y1 exclusive) or mask image.")
 @click.option("--protect", help="Advice: box or mask whose contrast to keep.")
 def command(root, out_dir, config_file, workers, scheduler, dashboard, list_only, as_json, angles, time_gap_s,
-            transfer, extinction, angle_offset_deg, align, calibration, max_pixels, demosaic, region, protect):
+            transfer, extinction, angle_offset_deg, align, calibration, max_pixels, demosaic, pictures, region,
+            protect):
     """Process every bracket under ROOT into DIR (--out), on dask.
 
     A folder with manifest.csv (file,angle_deg[,exposure_s]) is one bracket; other frames are
@@ -70,7 +72,7 @@ def command(root, out_dir, config_file, workers, scheduler, dashboard, list_only
         "stokes.transfer": transfer, "stokes.extinction": extinction,
         "stokes.angle_offset_deg": angle_offset_deg, "stokes.align": align,
         "stokes.calibration": str(calibration) if calibration is not None else None,
-        "stokes.max_pixels": max_pixels, "stokes.demosaic": demosaic,
+        "stokes.max_pixels": max_pixels, "stokes.demosaic": demosaic, "stokes.pictures": pictures,
         "advise.region": region, "advise.protect": protect,
         "cluster.workers": workers, "cluster.scheduler": scheduler, "cluster.dashboard": dashboard,
     }

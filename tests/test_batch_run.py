@@ -66,6 +66,9 @@ def _snapshot(root: Path) -> dict:
     return out
 
 
+FAST = {"stokes": {"pictures": False}}  # the PNG maps are slow; most tests do not need them
+
+
 def _rows_csv(path):
     with open(path, newline="") as fh:
         return list(csv.DictReader(fh))
@@ -76,7 +79,7 @@ def first_run(client, tmp_path_factory):
     base = tmp_path_factory.mktemp("batch")
     root = _tree(base / "in")
     before = _snapshot(root)
-    result = run_batch(root, base / "out", settings=merge_settings(), client=client)
+    result = run_batch(root, base / "out", settings=merge_settings(FAST), client=client)
     return base, root, before, result
 
 
@@ -92,7 +95,7 @@ def test_batch_through_a_real_cluster(first_run):
         if s == "done":
             assert (folder / "stokes.nc").is_file() and (folder / "summary.json").is_file()
             assert state.read_complete(folder) is not None
-            assert (folder / "thumb_dolp.png").is_file() and (folder / "thumb_aolp.png").is_file()
+            assert (folder / "thumb_frame.png").is_file()
         else:
             assert not folder.exists()
     assert not (out / state.TMP_DIR).exists() and not (out / runner.SCRATCH_DIR).exists()
@@ -126,17 +129,39 @@ def test_results_equal_direct_stokes_call(first_run, tmp_path):
     base, root, _, _ = first_run
     run_stokes = runner.step_functions()[0]
     frames = sorted((root / "day1").glob("pier0_*deg.tif"))
-    run_stokes([str(f) for f in frames], tmp_path / "direct", angles_deg=[0, 45, 90, 135])
+    run_stokes([str(f) for f in frames], tmp_path / "direct", angles_deg=[0, 45, 90, 135], pictures=False)
     with xr.open_dataset(tmp_path / "direct" / "stokes.nc") as a, \
             xr.open_dataset(base / "out" / "day1__pier0" / "stokes.nc") as b:
         for v in ("S0", "S1", "S2", "dolp", "aolp"):
             np.testing.assert_array_equal(a[v].values, b[v].values)
 
 
+def test_advice_and_pictures_reach_summary_and_thumbnails(client, tmp_path):
+    from PIL import Image
+
+    root = tmp_path / "in"
+    write_bracket(root, "lake", height=48, width=64, seed=3)
+    out = tmp_path / "out"
+    settings = merge_settings({"advise": {"region": [8, 8, 40, 30]}})
+    result = run_batch(root, out, settings=settings, client=client)
+    (row,) = result["rows"]
+    assert row["status"] == "done", row["error"]
+    folder = out / row["name"]
+    assert (folder / "advice.json").is_file() and (folder / "dolp.png").is_file()
+    advice = json.loads((folder / "advice.json").read_text())
+    assert row["best_angle_deg"] == pytest.approx(advice["best_angle_deg"], abs=1e-6)
+    assert row["reduction_stops"] == pytest.approx(advice["reduction_stops"], abs=1e-6)
+    for name in ("thumb_dolp.png", "thumb_aolp.png", "thumb_frame.png"):
+        with Image.open(folder / name) as im:
+            assert max(im.size) <= settings["report"]["thumbnail_px"]
+    csv_row = _rows_csv(out / "summary.csv")[0]
+    assert float(csv_row["best_angle_deg"]) == pytest.approx(advice["best_angle_deg"], abs=1e-5)
+
+
 def test_rerun_skips_unchanged_and_redoes_changed(first_run, client):
     base, root, before, result = first_run
     out = base / "out"
-    again = run_batch(root, out, settings=merge_settings(), client=client)
+    again = run_batch(root, out, settings=merge_settings(FAST), client=client)
     st = {r["name"]: r["status"] for r in again["rows"]}
     assert st["day1__pier0"] == st["day2__tower"] == "skipped"
     assert st["day2__corrupt"] == "failed"  # failures are always retried
@@ -146,7 +171,7 @@ def test_rerun_skips_unchanged_and_redoes_changed(first_run, client):
     # change one input: only that bracket is redone
     write_bracket(root / "day1", "pier1", seed=9)
     marker0 = json.loads((out / "day1__pier0" / state.MARKER).read_text())
-    third = run_batch(root, out, settings=merge_settings(), client=client)
+    third = run_batch(root, out, settings=merge_settings(FAST), client=client)
     st = {r["name"]: r["status"] for r in third["rows"]}
     assert st["day1__pier1"] == "done" and st["day1__pier0"] == st["day1__pier2"] == "skipped"
     assert json.loads((out / "day1__pier0" / state.MARKER).read_text())["run_id"] == marker0["run_id"]
@@ -154,7 +179,7 @@ def test_rerun_skips_unchanged_and_redoes_changed(first_run, client):
     nc = out / "day1__pier2" / "stokes.nc"
     nc.write_bytes(nc.read_bytes()[:100])
     # a changed setting redoes everything
-    changed = run_batch(root, out, settings=merge_settings(overrides={"stokes.angle_offset_deg": 2.0}),
+    changed = run_batch(root, out, settings=merge_settings(FAST, overrides={"stokes.angle_offset_deg": 2.0}),
                         client=client)
     assert {r["status"] for r in changed["rows"]} == {"done", "failed"}
     assert _snapshot(root) != before  # (we rewrote pier1 ourselves above)
@@ -166,7 +191,7 @@ def test_worker_killed_mid_task_the_batch_still_completes(client, tmp_path):
         write_bracket(root, f"scene{i}", height=240, width=320, seed=i)
     out = tmp_path / "out"
     box: dict = {}
-    t = threading.Thread(target=lambda: box.update(result=run_batch(root, out, settings=merge_settings(),
+    t = threading.Thread(target=lambda: box.update(result=run_batch(root, out, settings=merge_settings(FAST),
                                                                     client=client)))
     t.start()
     killed = None
@@ -235,7 +260,7 @@ def test_odd_folder_names_stay_inside_the_output(client, tmp_path):
     write_bracket(root / "odd..name", "x..y", seed=1)
     write_bracket(root / "sp ace" / "-dash", "z", seed=2)
     out = tmp_path / "out"
-    result = run_batch(root, out, settings=merge_settings(), client=client)
+    result = run_batch(root, out, settings=merge_settings(FAST), client=client)
     assert [r["status"] for r in result["rows"]] == ["done", "done"]
     made = [p for p in tmp_path.rglob("*") if not p.is_relative_to(root)]
     assert made and all(p.resolve().is_relative_to(out.resolve()) for p in made)

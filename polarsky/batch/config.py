@@ -15,6 +15,7 @@ Example (every key optional)::
     calibration = "cal.nc"         # relative to this file
     demosaic = "bilinear"          # mosaic cameras only
     max_pixels = 4000000
+    pictures = true                # PNG maps (and the report's DoLP/AoLP thumbnails)
 
     [advise]                       # present -> advice for every bracket
     region = [10, 20, 200, 120]    # x0,y0,x1,y1 (x1,y1 exclusive), or "mask.png"
@@ -52,7 +53,7 @@ __all__ = ["DEFAULTS", "load_config", "merge_settings", "parse_box", "check_sett
 DEFAULTS: dict = {
     "discovery": {"time_gap_s": 10.0, "angles_deg": None, "manifest_name": "manifest.csv"},
     "stokes": {"transfer": "auto", "extinction": None, "angle_offset_deg": 0.0, "align": False,
-               "calibration": None, "demosaic": None, "max_pixels": None},
+               "calibration": None, "demosaic": None, "max_pixels": None, "pictures": True},
     "advise": {"region": None, "protect": None},
     "sky": {},
     "report": {"embed_images": True, "thumbnail_px": 240},
@@ -144,8 +145,9 @@ def check_settings(settings: dict, *, source: str = "", base: Path | None = None
                          f"> 1, got {st['extinction']!r}")
     st["angle_offset_deg"] = _num(st["angle_offset_deg"], _where(source, "stokes", "angle_offset_deg"),
                                   allow_none=False)
-    if not isinstance(st["align"], bool):
-        raise InputError(f"{_where(source, 'stokes', 'align')} must be true or false, got {st['align']!r}")
+    for key in ("align", "pictures"):
+        if not isinstance(st[key], bool):
+            raise InputError(f"{_where(source, 'stokes', key)} must be true or false, got {st[key]!r}")
     st["max_pixels"] = _num(st["max_pixels"], _where(source, "stokes", "max_pixels"),
                             positive=True, integer=True)
     if st["calibration"] is not None:

@@ -51,10 +51,8 @@ SUMMARY_COLUMNS = [
 # ------------------------------------------------------------------------------ library steps
 def step_functions():
     """The library functions the batch calls: ``(run_stokes, run_advise or None, run_sky or None)``."""
-    try:
-        from ..pipeline import run_stokes
-    except ImportError:  # TEMPORARY until the core lands
-        from ._fallback import run_stokes
+    from ..pipeline import run_stokes
+
     try:
         from ..advice import run_advise
     except ImportError:
@@ -68,9 +66,7 @@ def step_functions():
 
 def _stokes_options(settings: dict, bracket: Bracket) -> dict:
     st = settings["stokes"]
-    opts = {k: v for k, v in st.items() if v is not None and k != "demosaic"}
-    if st.get("demosaic") is not None:
-        opts["demosaic"] = st["demosaic"]
+    opts = {k: v for k, v in st.items() if v is not None}
     if bracket.manifest is not None:
         opts["manifest"] = str(bracket.manifest)
     else:
