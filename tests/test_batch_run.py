@@ -274,3 +274,22 @@ def test_concurrent_batch_on_same_output_is_refused(tmp_path):
         with pytest.raises(InputError, match="another batch is writing"):
             with runner._lock(out):
                 pass
+
+
+def test_cli_json_on_an_existing_scheduler_exit_status(client, tmp_path, capsys):
+    from cli.main import main
+
+    root = tmp_path / "in"
+    write_bracket(root, "ok", seed=1)
+    address = client.scheduler.address
+    assert main(["batch", str(root), "--out", str(tmp_path / "out"), "--scheduler", address,
+                 "--no-pictures", "--json"]) == 0
+    out = capsys.readouterr().out
+    result = json.loads(out)  # exactly one JSON object on stdout
+    assert result["done"] == 1 and result["failed"] == 0 and result["rows"][0]["name"] == f"{root.name}__ok"
+    write_bracket(root, "short", angles_deg=(0, 90), seed=2)
+    assert main(["batch", str(root), "--out", str(tmp_path / "out"), "--scheduler", address,
+                 "--no-pictures"]) == 1
+    text = capsys.readouterr().out
+    assert "0 done, 1 unchanged (kept), 1 failed" in text
+    assert f"failed {root.name}__short: only 2 frame(s)" in text
