@@ -81,7 +81,11 @@ def _frame_preview(path: Path, px: int):
     a = np.clip((a - lo) / max(hi - lo, 1e-12), 0, 1)
     if np.dtype(arr.dtype).itemsize > 1:  # linear data: lift the shadows for viewing
         a = a ** (1 / 2.2)
-    return _shrink(Image.fromarray((a * 255 + 0.5).astype(np.uint8)).convert("RGB"), px)
+    img = Image.fromarray((a * 255 + 0.5).astype(np.uint8)).convert("RGB")
+    if max(img.size) < px:  # small frames: enlarge (nearest) so the axis line stays visible
+        k = px / max(img.size)
+        img = img.resize((max(1, round(img.width * k)), max(1, round(img.height * k))), Image.NEAREST)
+    return _shrink(img, px)
 
 
 def make_thumbnails(folder, frames, *, px: int = 240, best_angle_deg=None) -> list[str]:
@@ -131,7 +135,7 @@ h1{font-size:1.4em;margin:0 0 .3em}h2{font-size:1.1em;margin:1.4em 0 .4em}
 table{border-collapse:collapse;width:100%}th,td{border-bottom:1px solid #d8d8d0;padding:4px 6px;
 text-align:left;vertical-align:top}th{background:#e9ece4;cursor:pointer;user-select:none;position:sticky;top:0}
 th.asc::after{content:" \\25B2"}th.desc::after{content:" \\25BC"}td.num{text-align:right;
-font-variant-numeric:tabular-nums}tr.failed td{background:#fbeae7}img{display:block;max-width:240px}
+font-variant-numeric:tabular-nums}tr.failed td{background:#fbeae7}img{display:block;max-width:240px}a{color:#1f5f8b}
 .err{color:#a3261b}.small{color:#5b6166;font-size:.9em}.note{background:#fff6d8;padding:.4em .7em;
 border-left:4px solid #d9a400}figure{display:inline-block;margin:0 6px 6px 0}figcaption{font-size:.8em;color:#5b6166}
 """
@@ -239,6 +243,8 @@ def write_report(path, rows: list[dict], *, out_dir, title: str, embed_images: b
             if numeric:
                 sort = "" if v in (None, "") else str(v)
                 out.append(f'<td class="num" data-sort="{e(sort)}">{e(_fmt(v, digits))}</td>')
+            elif key == "name" and r["status"] != "failed":
+                out.append(f'<td><a href="{e(str(v))}/">{e(_fmt(v))}</a></td>')
             else:
                 out.append(f"<td>{e(_fmt(v))}</td>")
         folder = out_dir / str(r["name"])
