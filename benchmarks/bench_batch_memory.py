@@ -51,6 +51,15 @@ def write_big_bracket(folder: Path, height: int, width: int, angles=(0, 45, 90, 
     return paths
 
 
+def _vm_hwm():
+    """(pid, peak resident set size in bytes) of this process, from /proc/self/status."""
+    with open("/proc/self/status") as fh:
+        for line in fh:
+            if line.startswith("VmHWM:"):
+                return os.getpid(), int(line.split()[1]) * 1024
+    return os.getpid(), 0
+
+
 def main(argv=None) -> int:
     import psutil
 
@@ -91,12 +100,14 @@ def main(argv=None) -> int:
             elapsed = time.perf_counter() - t1
             stop.set()
             th.join()
+            hwm = client.run(_vm_hwm)  # the kernel's exact high-water mark per worker
         row = result["rows"][0]
         print(f"bracket {row['name']}: {row['status']} {row['error']} in {elapsed:.1f} s "
               f"(pictures {'on' if a.pictures else 'off'}; mean DoLP {row['mean_dolp']})")
         for pid in sorted(worker_pids):
-            print(f"worker {pid}: idle {idle[pid] / 2**30:.2f} GiB, peak RSS {peaks.get(pid, 0) / 2**30:.2f} GiB "
-                  f"(target < 3 GB = {3e9 / 2**30:.2f} GiB)")
+            high = max((v for v in hwm.values() if v and v[0] == pid), default=(pid, 0))[1]
+            print(f"worker {pid}: idle {idle[pid] / 2**30:.2f} GiB, peak RSS sampled {peaks.get(pid, 0) / 2**30:.2f} GiB, "
+                  f"VmHWM {high / 2**30:.2f} GiB (target < 3 GB = {3e9 / 2**30:.2f} GiB)")
         print(f"driver peak RSS (this process, not a worker): {me.memory_info().rss / 2**30:.2f} GiB now")
         sizes = {p.name: p.stat().st_size for p in (work / "out" / row["name"]).iterdir()}
         print(f"outputs: {', '.join(f'{k} {v / 2**20:.0f} MiB' for k, v in sorted(sizes.items()))}")

@@ -293,3 +293,24 @@ def test_cli_json_on_an_existing_scheduler_exit_status(client, tmp_path, capsys)
     text = capsys.readouterr().out
     assert "0 done, 1 unchanged (kept), 1 failed" in text
     assert f"failed {root.name}__short: only 2 frame(s)" in text
+
+
+def test_progress_bar_counts_done_and_failed(client, tmp_path, capsys):
+    root = tmp_path / "in"
+    write_bracket(root, "ok", seed=1)
+    write_bracket(root, "few", angles_deg=(0, 90), seed=2)
+    run_batch(root, tmp_path / "out", settings=merge_settings(FAST), client=client, progress=True)
+    err = capsys.readouterr().err
+    assert "2/2" in err and "failed=1" in err and "done=1" in err and "bracket/s" in err
+
+
+def test_dashboard_when_asked_is_on_loopback(tmp_path):
+    import importlib.util
+
+    if importlib.util.find_spec("bokeh") is None:
+        with pytest.raises(InputError, match="--dashboard needs the bokeh package"):
+            with runner.batch_client(workers=1, scheduler=None, scratch=tmp_path / "s", dashboard=True):
+                pass
+        return
+    with runner.batch_client(workers=1, scheduler=None, scratch=tmp_path / "s", dashboard=True) as c:
+        assert c.dashboard_link.startswith("http://127.0.0.1:")

@@ -309,6 +309,12 @@ def batch_client(*, workers: int, scheduler: str | None, scratch: Path, dashboar
         finally:
             client.close()
         return
+    if dashboard:
+        import importlib.util
+
+        if importlib.util.find_spec("bokeh") is None:
+            raise InputError("--dashboard needs the bokeh package (pip install 'bokeh>=3.1'); "
+                             "or run without --dashboard")
     scratch.mkdir(parents=True, exist_ok=True)
     # The scheduler always runs a small HTTP server (health checks); bind it to a free
     # loopback port too, and serve the dashboard pages on it only when asked.
