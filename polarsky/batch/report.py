@@ -109,7 +109,7 @@ def make_thumbnails(folder, frames, *, px: int = 240, best_angle_deg=None) -> li
             made.append(target)
     for p in pngs:
         n = p.name.lower()
-        if "sky" in n:  # the sky comparison's figures (residual maps and the like)
+        if "sky" in n and "residual" in n:  # the sky comparison's residual figures
             with Image.open(p) as im:
                 _shrink(im.convert("RGB"), px).save(folder / f"thumb_sky_{p.stem}.png")
             made.append(f"thumb_sky_{p.stem}.png")

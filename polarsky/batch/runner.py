@@ -18,6 +18,7 @@ from __future__ import annotations
 
 import contextlib
 import csv
+import inspect
 import io
 import json
 import logging
@@ -60,8 +61,29 @@ def step_functions():
     try:
         from ..sky import run_sky
     except ImportError:
-        run_sky = None
+        try:
+            from ..sky.run import run_sky
+        except ImportError:
+            run_sky = None
     return run_stokes, run_advise, run_sky
+
+
+def sky_keywords(run_sky) -> set | None:
+    """Setting names a ``[sky]`` table may hold (None: cannot tell, accept any)."""
+    names = accepted_keywords(run_sky)
+    if names is None:  # run_sky(**options) forwards to prepare_sky in the same module
+        prepare = getattr(sys.modules.get(run_sky.__module__), "prepare_sky", None)
+        if prepare is None:
+            return None
+        explicit = {p.name for p in inspect.signature(run_sky).parameters.values()
+                    if p.kind in (p.KEYWORD_ONLY, p.POSITIONAL_OR_KEYWORD)}
+        more = accepted_keywords(prepare) or set()
+        names = explicit | more
+    return names - {"frames", "out_dir", "stokes", "pictures"} - set(_STOKES_KEYS)
+
+
+_STOKES_KEYS = ("angles_deg", "manifest", "transfer", "max_pixels", "extinction", "angle_offset_deg", "align",
+                "calibration", "demosaic")
 
 
 def _stokes_options(settings: dict, bracket: Bracket) -> dict:
@@ -99,12 +121,12 @@ def check_steps(settings: dict) -> None:
         if run_sky is None:
             raise InputError("a sky comparison is configured ([sky] table) but polarsky.sky.run_sky is not "
                              "available in this installation; remove the [sky] table or update polarsky")
-        allowed = accepted_keywords(run_sky)
+        allowed = sky_keywords(run_sky)
         if allowed is not None:
             bad = sorted(k for k in settings["sky"] if k not in allowed)
             if bad:
                 raise InputError(f"unknown key(s) in [sky]: {', '.join(bad)}; "
-                                 f"run_sky accepts {', '.join(sorted(allowed - {'frames', 'out_dir'}))}")
+                                 f"the sky comparison accepts {', '.join(sorted(allowed))}")
 
 
 # ------------------------------------------------------------------------------ worker side
@@ -144,6 +166,18 @@ def _find_number(d, *words):
     for v in d.values():
         if isinstance(v, dict):
             found = _find_number(v, *words)
+            if found is not None:
+                return found
+    return None
+
+
+def _first_number(d, *word_sets):
+    if isinstance(d, dict):
+        for words in word_sets:
+            if len(words) == 1 and isinstance(d.get(words[0]), (int, float)) and not isinstance(d[words[0]], bool):
+                return float(d[words[0]])
+        for words in word_sets:
+            found = _find_number(d, *words)
             if found is not None:
                 return found
     return None
@@ -232,14 +266,13 @@ def process_bracket(task: dict) -> dict:
             if adv["region"] is not None:
                 region, protect = _region_text(adv["region"]), _region_text(adv["protect"])
                 advice = run_advise(frames, tmp, region=region, protect=protect, **opts)
-                values["best_angle_deg"] = _find_number(advice, "best_angle_deg")
-                values["reduction_stops"] = _find_number(advice, "reduction_stops")
+                values["best_angle_deg"] = _first_number(advice, ("best_angle_deg",))
+                values["reduction_stops"] = _first_number(advice, ("reduction_stops",))
             if settings["sky"]:
                 sky = run_sky(frames, tmp, **{**opts, **settings["sky"]})
-                values["sky_dolp_residual_rms"] = (_find_number(sky, "dolp", "residual", "rms")
-                                                   or _find_number(sky, "dolp", "residual"))
-                values["sky_aolp_residual_rms_deg"] = (_find_number(sky, "aolp", "residual", "rms")
-                                                       or _find_number(sky, "aolp", "residual"))
+                values["sky_dolp_residual_rms"] = _first_number(sky, ("dolp_rms",), ("dolp", "residual", "rms"))
+                values["sky_aolp_residual_rms_deg"] = _first_number(sky, ("aolp_rms_deg",),
+                                                                    ("aolp", "residual", "rms"))
         from .report import make_thumbnails
 
         make_thumbnails(tmp, frames, px=settings["report"]["thumbnail_px"],
