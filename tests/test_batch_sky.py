@@ -32,7 +32,7 @@ def sky_root(tmp_path_factory):
     root = tmp_path_factory.mktemp("sky") / "in"
     sun = sun_position(parse_when(WHEN), 47.0, 8.0)
     g = SkyGeometry(make_lens("pinhole", 64, 48, hfov_deg=70), 10, 25, 4, sun["azimuth_deg"], sun["elevation_deg"])
-    for stem in ("east", "west"):
+    for stem in ("east",):
         write_tiff_bracket(root, render_sky_bracket(g, (0, 45, 90, 135), noise_sigma=0.002), (0, 45, 90, 135),
                            stem=stem)
     return root
@@ -50,20 +50,20 @@ def test_sky_residuals_reach_summary_and_report(sky_root, tmp_path):
     settings = merge_settings({"sky": GEO})
     runner.check_steps(settings)
     rows = _run(sky_root, tmp_path / "out", settings)
-    assert [r["status"] for r in rows] == ["done", "done"], [r["error"] for r in rows]
+    assert [r["status"] for r in rows] == ["done"], [r["error"] for r in rows]
     for r in rows:
         sky = json.loads((tmp_path / "out" / r["name"] / "sky.json").read_text())
         assert r["sky_dolp_residual_rms"] == pytest.approx(sky["dolp_rms"], abs=1e-6)
         assert r["sky_aolp_residual_rms_deg"] == pytest.approx(sky["aolp_rms_deg"], abs=1e-6)
         assert list((tmp_path / "out" / r["name"]).glob("thumb_sky_*residual*.png"))
     html = write_report(tmp_path / "out" / "report.html", rows, out_dir=tmp_path / "out", title="t").read_text()
-    assert "sky residuals" in html and "thumb_sky" not in html  # embedded, not linked
+    assert "sky residuals" in html and 'src="thumb_sky' not in html  # embedded, not linked
 
 
 def test_bad_geometry_fails_each_bracket_with_the_reason(sky_root, tmp_path):
     rows = _run(sky_root, tmp_path / "out", merge_settings({"sky": {**GEO, "pitch_deg": 120.0},
                                                             "stokes": {"pictures": False}}))
-    assert [r["status"] for r in rows] == ["failed", "failed"]
+    assert [r["status"] for r in rows] == ["failed"]
     assert all("pitch" in r["error"] for r in rows)
 
 

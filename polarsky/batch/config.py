@@ -168,6 +168,9 @@ def check_settings(settings: dict, *, source: str = "", base: Path | None = None
     for key in ("region", "protect"):
         if isinstance(adv[key], Path):
             adv[key] = str(adv[key].resolve())
+    sky_mask = s["sky"].get("sky_mask_path")
+    if isinstance(sky_mask, str) and base is not None and not Path(sky_mask).is_absolute():
+        s["sky"]["sky_mask_path"] = str((base / sky_mask).resolve())
     if not isinstance(rep["embed_images"], bool):
         raise InputError(f"{_where(source, 'report', 'embed_images')} must be true or false")
     rep["thumbnail_px"] = _num(rep["thumbnail_px"], _where(source, "report", "thumbnail_px"),

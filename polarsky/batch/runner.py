@@ -70,15 +70,20 @@ def step_functions():
 
 def sky_keywords(run_sky) -> set | None:
     """Setting names a ``[sky]`` table may hold (None: cannot tell, accept any)."""
+    def named(func):
+        return {p.name for p in inspect.signature(func).parameters.values()
+                if p.kind in (p.KEYWORD_ONLY, p.POSITIONAL_OR_KEYWORD)}
+
     names = accepted_keywords(run_sky)
-    if names is None:  # run_sky(**options) forwards to prepare_sky in the same module
-        prepare = getattr(sys.modules.get(run_sky.__module__), "prepare_sky", None)
-        if prepare is None:
+    if names is None:  # run_sky(**options) forwards to polarsky.sky.run (run_sky -> prepare_sky)
+        try:
+            from ..sky import run as sky_run
+        except ImportError:
             return None
-        explicit = {p.name for p in inspect.signature(run_sky).parameters.values()
-                    if p.kind in (p.KEYWORD_ONLY, p.POSITIONAL_OR_KEYWORD)}
-        more = accepted_keywords(prepare) or set()
-        names = explicit | more
+        funcs = [getattr(sky_run, "run_sky", None), getattr(sky_run, "prepare_sky", None)]
+        if None in funcs:
+            return None
+        names = named(funcs[0]) | named(funcs[1])
     return names - {"frames", "out_dir", "stokes", "pictures"} - set(_STOKES_KEYS)
 
 
