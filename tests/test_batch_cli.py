@@ -88,14 +88,13 @@ def test_demosaic_without_support_is_refused(tmp_path, capsys):
     assert "demosaic" in capsys.readouterr().err
 
 
-def test_subprocess_run_writes_summary_and_report(tmp_path):
-    root = tmp_path / "in"
-    write_bracket(root, "pier", seed=0)
-    write_bracket(root, "few", angles_deg=(0, 90), seed=2)
-    out = tmp_path / "out"
-    r = subprocess.run([sys.executable, "-m", "cli.main", "batch", str(root), "--out", str(out), "--workers", "1",
-                        "--no-pictures"], cwd=REPO, capture_output=True, text=True, timeout=120)
-    assert r.returncode == 1, r.stderr
-    assert "2 brackets: 1 done, 0 unchanged (kept), 1 failed" in r.stdout
-    assert r.stderr == ""  # not a terminal: no progress bar
-    assert (out / "summary.csv").is_file() and (out / "report.html").is_file()
+def test_subprocess_list(tmp_path):
+    """As a subprocess (the SIGKILL test in test_batch_kill.py runs whole batches this way)."""
+    root = _tree(tmp_path / "in")
+    r = subprocess.run([sys.executable, "-m", "cli.main", "batch", str(root), "--list", "--json"], cwd=REPO,
+                       capture_output=True, text=True, timeout=60)
+    assert r.returncode == 0 and r.stderr == ""
+    assert json.loads(r.stdout)["count"] == 3
+    r = subprocess.run([sys.executable, "-m", "cli.main", "batch", str(root), "--list", "--time-gap", "x"],
+                       cwd=REPO, capture_output=True, text=True, timeout=60)
+    assert r.returncode == 2 and r.stderr.startswith("error: ") and r.stderr.count("\n") == 1

@@ -88,6 +88,7 @@ def test_sigkill_part_way_then_rerun_matches_a_clean_run(tmp_path):
 
     rerun = subprocess.run(cmd + ["--json"], cwd=REPO, capture_output=True, text=True, timeout=180)
     assert rerun.returncode == 0, rerun.stderr
+    assert rerun.stderr == ""  # --json and no terminal: no progress bar, nothing else
     result = json.loads(rerun.stdout)
     status = {r["name"]: r["status"] for r in result["rows"]}
     assert len(status) == N_BRACKETS
