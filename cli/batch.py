@@ -46,13 +46,19 @@ def _angles(text):
 @click.option("--align/--no-align", default=None, help="Register frames to the first before estimating.")
 @click.option("--calibration", type=click.Path(path_type=Path), help="Calibration file (CAL.nc).")
 @click.option("--max-pixels", type=int, help="Downsample frames larger than this many pixels.")
-@click.option("--demosaic", help="Demosaicing method for polarization-mosaic frames.")
+@click.option("--mosaic", "mosaic_cell", metavar="CELL",
+              help="Frames are raw polarization-mosaic frames, each its own bracket; CELL is the 2x2 cell's "
+                   "micro-polarizer angles, rows split by ';', e.g. \"90,45;135,0\".")
+@click.option("--mosaic-colour", help="Colour mosaic sensor: Bayer order of the 2x2 polarizer cells.")
+@click.option("--demosaic", help="Demosaicing method for mosaic frames (default bilinear).")
+@click.option("--bit-depth", type=int, help="Significant bits of mosaic raw data in 16-bit containers.")
+@click.option("--black-level", type=float, help="Mosaic sensor black level in raw counts.")
 @click.option("--pictures/--no-pictures", default=None, help="Write the PNG maps per bracket (default on).")
 @click.option("--region", help="Advice for every bracket: region box x0,y0,x1,y1 (x1,y1 exclusive) or mask image.")
 @click.option("--protect", help="Advice: box or mask whose contrast to keep.")
 def command(root, out_dir, config_file, workers, scheduler, dashboard, list_only, as_json, angles, time_gap_s,
-            transfer, extinction, angle_offset_deg, align, calibration, max_pixels, demosaic, pictures, region,
-            protect):
+            transfer, extinction, angle_offset_deg, align, calibration, max_pixels, mosaic_cell, mosaic_colour,
+            demosaic, bit_depth, black_level, pictures, region, protect):
     """Process every bracket under ROOT into DIR (--out), on dask.
 
     A folder with manifest.csv (file,angle_deg[,exposure_s]) is one bracket; other frames are
@@ -72,7 +78,9 @@ def command(root, out_dir, config_file, workers, scheduler, dashboard, list_only
         "stokes.transfer": transfer, "stokes.extinction": extinction,
         "stokes.angle_offset_deg": angle_offset_deg, "stokes.align": align,
         "stokes.calibration": str(calibration) if calibration is not None else None,
-        "stokes.max_pixels": max_pixels, "stokes.demosaic": demosaic, "stokes.pictures": pictures,
+        "stokes.max_pixels": max_pixels, "stokes.pictures": pictures,
+        "mosaic.cell": mosaic_cell, "mosaic.colour": mosaic_colour, "mosaic.demosaic": demosaic,
+        "mosaic.bit_depth": bit_depth, "mosaic.black_level": black_level,
         "advise.region": region, "advise.protect": protect,
         "cluster.workers": workers, "cluster.scheduler": scheduler, "cluster.dashboard": dashboard,
     }

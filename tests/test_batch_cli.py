@@ -78,14 +78,20 @@ def test_bad_input_exits_2_with_one_error_line(tmp_path, capsys):
     assert "stokes.transfr" in err and "[advice]" in err
 
 
-def test_demosaic_without_support_is_refused(tmp_path, capsys):
-    from polarsky.batch.runner import _accepts_demosaic, step_functions
-
+def test_mosaic_options_need_a_cell(tmp_path, capsys):
     root = _tree(tmp_path / "in")
-    if _accepts_demosaic(step_functions()[0]):  # mosaic support present: nothing to refuse
+    assert main(["batch", str(root), "--list", "--demosaic", "bilinear"]) == 2
+    assert "applies only to mosaic frames" in capsys.readouterr().err
+
+
+def test_mosaic_without_support_is_refused(tmp_path, capsys):
+    from polarsky.batch.runner import mosaic_function
+
+    if mosaic_function() is not None:  # mosaic support present: see test_batch_mosaic.py
         return
-    assert main(["batch", str(root), "--out", str(tmp_path / "o"), "--demosaic", "bilinear"]) == 2
-    assert "demosaic" in capsys.readouterr().err
+    root = _tree(tmp_path / "in")
+    assert main(["batch", str(root), "--out", str(tmp_path / "o"), "--mosaic", "90,45;135,0"]) == 2
+    assert "polarsky.mosaic is not available" in capsys.readouterr().err
 
 
 def test_subprocess_list(tmp_path):

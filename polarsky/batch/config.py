@@ -13,13 +13,19 @@ Example (every key optional)::
     angle_offset_deg = 0.0
     align = false
     calibration = "cal.nc"         # relative to this file
-    demosaic = "bilinear"          # mosaic cameras only
     max_pixels = 4000000
     pictures = true                # PNG maps (and the report's DoLP/AoLP thumbnails)
 
     [advise]                       # present -> advice for every bracket
     region = [10, 20, 200, 120]    # x0,y0,x1,y1 (x1,y1 exclusive), or "mask.png"
     protect = [0, 0, 50, 50]
+
+    [mosaic]                       # cell set -> every frame is one raw polarization-mosaic frame
+    cell = "90,45;135,0"           # micro-polarizer angles of the 2x2 cell, rows split by ';'
+    colour = "RGGB"                # colour mosaic sensor: Bayer order of the cells
+    demosaic = "bilinear"          # demosaicing method
+    bit_depth = 12                 # significant bits in 16-bit containers
+    black_level = 64.0             # raw counts
 
     [sky]                          # present -> sky comparison for every bracket
     # keys are passed to polarsky.sky.run_sky (checked against its parameters)
@@ -53,8 +59,9 @@ __all__ = ["DEFAULTS", "load_config", "merge_settings", "parse_box", "check_sett
 DEFAULTS: dict = {
     "discovery": {"time_gap_s": 10.0, "angles_deg": None, "manifest_name": "manifest.csv"},
     "stokes": {"transfer": "auto", "extinction": None, "angle_offset_deg": 0.0, "align": False,
-               "calibration": None, "demosaic": None, "max_pixels": None, "pictures": True},
+               "calibration": None, "max_pixels": None, "pictures": True},
     "advise": {"region": None, "protect": None},
+    "mosaic": {"cell": None, "colour": None, "demosaic": None, "bit_depth": None, "black_level": None},
     "sky": {},
     "report": {"embed_images": True, "thumbnail_px": 240},
     "cluster": {"workers": None, "scheduler": None, "dashboard": False},
@@ -158,8 +165,17 @@ def check_settings(settings: dict, *, source: str = "", base: Path | None = None
             raise InputError(f"calibration file {p} does not exist ({_where(source, 'stokes', 'calibration')}); "
                              "make one with 'polarsky calibrate'")
         st["calibration"] = str(p.resolve())
-    if st["demosaic"] is not None and not isinstance(st["demosaic"], str):
-        raise InputError(f"{_where(source, 'stokes', 'demosaic')} must be a method name, got {st['demosaic']!r}")
+    mo = s["mosaic"]
+    for key in ("cell", "colour", "demosaic"):
+        if mo[key] is not None and (not isinstance(mo[key], str) or not mo[key].strip()):
+            raise InputError(f"{_where(source, 'mosaic', key)} must be text, got {mo[key]!r}")
+    if mo["cell"] is None:
+        extra = [k for k in ("colour", "demosaic", "bit_depth", "black_level") if mo[k] is not None]
+        if extra:
+            raise InputError(f"{_where(source, 'mosaic', extra[0])} applies only to mosaic frames: give "
+                             "[mosaic] cell (or --mosaic), e.g. \"90,45;135,0\"")
+    mo["bit_depth"] = _num(mo["bit_depth"], _where(source, "mosaic", "bit_depth"), positive=True, integer=True)
+    mo["black_level"] = _num(mo["black_level"], _where(source, "mosaic", "black_level"))
     adv["region"] = parse_box(adv["region"], what="region", source=_where(source, "advise", "region"), base=base)
     adv["protect"] = parse_box(adv["protect"], what="protect", source=_where(source, "advise", "protect"),
                                base=base)

@@ -12,6 +12,9 @@ Three rules, tried in this order for each folder:
    Their analyzer angles come from the batch settings (``angles_deg``, in shot order); a
    group holding a whole multiple of that many frames is split into consecutive brackets.
 
+With a mosaic cell configured, every frame outside manifest folders is one bracket
+(a raw frame of a polarization-mosaic camera) instead of rules 2 and 3.
+
 Image files that no rule can place (no angle token, no EXIF time) become one *failed*
 bracket per folder, so that nothing is dropped silently.  Discovery only reads: files are
 opened read-only and never modified.
@@ -68,7 +71,7 @@ class Bracket:
     manifest : Path or None
         The ``manifest.csv`` of a manifest bracket.
     rule : str
-        ``"manifest"``, ``"name"``, ``"time"`` or ``"none"``.
+        ``"manifest"``, ``"name"``, ``"time"``, ``"mosaic"`` or ``"none"``.
     reason : str
         Why these frames were grouped so (shown by ``--list``).
     problem : str or None
@@ -205,7 +208,7 @@ def _split_by_time(files_times, gap_s):
 
 def discover_brackets(root, *, time_gap_s: float = 10.0, angles_deg=None,
                       manifest_name: str = "manifest.csv", extensions=IMAGE_EXTENSIONS,
-                      exclude_dirs=()) -> list[Bracket]:
+                      exclude_dirs=(), mosaic_cell: str | None = None) -> list[Bracket]:
     """Walk ``root`` and return its brackets in a stable (sorted) order.
 
     Parameters
@@ -222,6 +225,9 @@ def discover_brackets(root, *, time_gap_s: float = 10.0, angles_deg=None,
         Lower-case suffixes of frame files.
     exclude_dirs : sequence of path
         Folders not to search (the batch output folder when it lies inside ``root``).
+    mosaic_cell : str, optional
+        Frames come from a polarization-mosaic camera with this 2x2 cell: outside manifest
+        folders every frame file is a bracket of its own (rule ``"mosaic"``).
 
     Returns
     -------
@@ -269,6 +275,13 @@ def discover_brackets(root, *, time_gap_s: float = 10.0, angles_deg=None,
             continue
         files = [here / f for f in filenames if not f.startswith(".") and _is_image(here / f, extensions)]
         if not files:
+            continue
+        if mosaic_cell:
+            for f in files:
+                found.append(Bracket(
+                    name=unique(rel_parts + (f.stem,)), label=f"{label_dir}/{f.name}", frames=(f,),
+                    angles_deg=None, manifest=None, rule="mosaic",
+                    reason=f"one raw frame of a polarization-mosaic camera (cell {mosaic_cell})"))
             continue
         by_name, rest = _group_by_name(files)
         for stem in sorted(by_name):

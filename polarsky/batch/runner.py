@@ -88,7 +88,7 @@ def sky_keywords(run_sky) -> set | None:
 
 
 _STOKES_KEYS = ("angles_deg", "manifest", "transfer", "max_pixels", "extinction", "angle_offset_deg", "align",
-                "calibration", "demosaic")
+                "calibration", "mosaic", "mosaic_colour", "demosaic", "bit_depth", "black_level")
 
 
 def _stokes_options(settings: dict, bracket: Bracket) -> dict:
@@ -101,24 +101,49 @@ def _stokes_options(settings: dict, bracket: Bracket) -> dict:
     return opts
 
 
-def _accepts_demosaic(run_stokes) -> bool:
-    names = accepted_keywords(run_stokes)
-    if names is not None:
-        return "demosaic" in names
-    try:  # run_stokes(**options) forwards bracket options to the pipeline's option lists
-        from .. import pipeline
+def mosaic_function():
+    """``polarsky.mosaic.run_mosaic_stokes`` or None when mosaic support is not installed."""
+    try:
+        from ..mosaic import run_mosaic_stokes
     except ImportError:
-        return False
-    keys = tuple(getattr(pipeline, "_BRACKET_KEYS", ())) + tuple(getattr(pipeline, "_SETTING_KEYS", ()))
-    return "demosaic" in keys
+        return None
+    return run_mosaic_stokes
+
+
+def _mosaic_options(settings: dict) -> dict:
+    mo, st = settings["mosaic"], settings["stokes"]
+    opts = {"mosaic": mo["cell"], "mosaic_colour": mo["colour"], "demosaic": mo["demosaic"],
+            "bit_depth": mo["bit_depth"], "black_level": mo["black_level"], "calibration": st["calibration"],
+            "transfer": st["transfer"], "max_pixels": st["max_pixels"], "pictures": st["pictures"]}
+    return {k: v for k, v in opts.items() if v is not None}
 
 
 def check_steps(settings: dict) -> None:
     """Fail early (InputError) when the settings ask for something this install cannot do."""
     run_stokes, run_advise, run_sky = step_functions()
-    if settings["stokes"].get("demosaic") is not None and not _accepts_demosaic(run_stokes):
-        raise InputError("demosaic is set but this polarsky's Stokes step has no demosaicing option; "
-                         "remove [stokes] demosaic (or --demosaic)")
+    mo = settings["mosaic"]
+    if mo["cell"] is not None:
+        if mosaic_function() is None:
+            raise InputError("mosaic frames are configured ([mosaic] cell / --mosaic) but polarsky.mosaic is not "
+                             "available in this installation; remove the mosaic settings or update polarsky")
+        from ..mosaic import DEMOSAIC_METHODS, parse_mosaic
+
+        parse_mosaic(mo["cell"], mo["colour"])  # InputError naming a bad cell
+        if mo["demosaic"] is not None and mo["demosaic"].lower() not in {k.lower() for k in DEMOSAIC_METHODS}:
+            raise InputError(f"[mosaic] demosaic {mo['demosaic']!r} is not one of "
+                             f"{', '.join(DEMOSAIC_METHODS)}")
+        if settings["advise"]["region"] is not None:
+            raise InputError("advice ([advise] region) is not available for mosaic frames in a batch; run "
+                             "'polarsky advise' on them or remove the [advise] table")
+        for key in ("angles_deg",):
+            if settings["discovery"][key] is not None:
+                raise InputError("[discovery] angles_deg (--angles) does not apply to mosaic frames: the cell "
+                                 "gives the angles")
+        for key in ("extinction", "align"):
+            if settings["stokes"][key] not in (None, False):
+                raise InputError(f"[stokes] {key} does not apply to mosaic frames; remove it")
+        if settings["stokes"]["angle_offset_deg"]:
+            raise InputError("[stokes] angle_offset_deg does not apply to mosaic frames; use a calibration file")
     if settings["advise"]["region"] is not None and run_advise is None:
         raise InputError("advice is configured ([advise] region) but polarsky.advice is not available "
                          "in this installation; remove the [advise] table")
@@ -227,7 +252,7 @@ def _key_settings(bracket: Bracket, settings: dict) -> dict:
     d["frames"] = [Path(f).name for f in bracket.frames]
     d["manifest"] = Path(bracket.manifest).name if bracket.manifest else None
     return {"bracket": d, "stokes": settings["stokes"], "advise": settings["advise"], "sky": settings["sky"],
-            "thumbnail_px": settings["report"]["thumbnail_px"]}
+            "mosaic": settings["mosaic"], "thumbnail_px": settings["report"]["thumbnail_px"]}
 
 
 def process_bracket(task: dict) -> dict:
@@ -264,7 +289,10 @@ def process_bracket(task: dict) -> dict:
         frames = [str(f) for f in bracket.frames]
         with warnings.catch_warnings(record=True) as caught:
             warnings.simplefilter("always", PolarskyWarning)
-            summary = run_stokes(frames, tmp, **opts)
+            if bracket.rule == "mosaic":
+                summary = mosaic_function()(frames, tmp, **_mosaic_options(settings))
+            else:
+                summary = run_stokes(frames, tmp, **opts)
             values = {"mean_dolp": _mean_dolp(summary, tmp)}
             advice = None
             adv = settings["advise"]
@@ -274,7 +302,11 @@ def process_bracket(task: dict) -> dict:
                 values["best_angle_deg"] = _first_number(advice, ("best_angle_deg",))
                 values["reduction_stops"] = _first_number(advice, ("reduction_stops",))
             if settings["sky"]:
-                sky = run_sky(frames, tmp, **{**opts, **settings["sky"]})
+                if bracket.rule == "mosaic":  # the sky step reads the mosaic's Stokes result
+                    sky = run_sky([str(tmp / "stokes.nc")], tmp, pictures=settings["stokes"]["pictures"],
+                                  **settings["sky"])
+                else:
+                    sky = run_sky(frames, tmp, **{**opts, **settings["sky"]})
                 values["sky_dolp_residual_rms"] = _first_number(sky, ("dolp_rms",), ("dolp", "residual", "rms"))
                 values["sky_aolp_residual_rms_deg"] = _first_number(sky, ("aolp_rms_deg",),
                                                                     ("aolp", "residual", "rms"))
@@ -312,7 +344,8 @@ def list_brackets(root, out_dir=None, *, settings) -> list[Bracket]:
     d = settings["discovery"]
     return discover_brackets(root, time_gap_s=d["time_gap_s"], angles_deg=d["angles_deg"],
                              manifest_name=d["manifest_name"],
-                             exclude_dirs=[out_dir] if out_dir is not None else [])
+                             exclude_dirs=[out_dir] if out_dir is not None else [],
+                             mosaic_cell=settings["mosaic"]["cell"])
 
 
 @contextlib.contextmanager
