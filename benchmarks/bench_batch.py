@@ -67,7 +67,12 @@ def main(argv=None) -> int:
               f"{os.cpu_count()} CPUs, load average {os.getloadavg()[0]:.1f} at start "
               "(other work on the machine skews the scaling ratio)")
 
-        # direct: the Stokes step alone, sequential, in this process
+        # direct: the Stokes step alone, sequential, in this process, with the same one thread
+        # per process as a batch worker (runner.WORKER_ENV)
+        import numba
+
+        all_threads = numba.get_num_threads()
+        numba.set_num_threads(1)
         run_stokes = runner.step_functions()[0]
         opts = {k: v for k, v in settings["stokes"].items() if v is not None}
         run_stokes([str(f) for f in brackets[0].frames], work / "direct-warm", angles_deg=list(brackets[0].angles_deg),
@@ -80,7 +85,14 @@ def main(argv=None) -> int:
                            **opts)
             direct.append((time.perf_counter() - t0) / len(brackets))
         t_direct = min(direct)
-        print(f"direct run_stokes: {t_direct * 1e3:.1f} ms per bracket ({1 / t_direct:.2f} brackets/s)")
+        print(f"direct run_stokes (1 thread, as a worker): {t_direct * 1e3:.1f} ms per bracket "
+              f"({1 / t_direct:.2f} brackets/s)")
+        numba.set_num_threads(all_threads)
+        t0 = time.perf_counter()
+        for b in brackets:
+            run_stokes([str(f) for f in b.frames], work / "direct-all" / b.name, angles_deg=list(b.angles_deg), **opts)
+        t_all = (time.perf_counter() - t0) / len(brackets)
+        print(f"direct run_stokes ({all_threads} kernel threads, for reference): {t_all * 1e3:.1f} ms per bracket")
 
         rates = {}
         per_bracket = {}

@@ -39,6 +39,10 @@ from .discover import Bracket, discover_brackets
 __all__ = ["run_batch", "list_brackets", "process_bracket", "SUMMARY_COLUMNS", "step_functions"]
 
 SCRATCH_DIR = ".polarsky-scratch"
+#: One worker process per core, one thread each: keep the compiled kernels single-threaded
+#: too (dask already does this for OpenMP/BLAS), or the workers fight over the cores.
+WORKER_ENV = {"NUMBA_NUM_THREADS": "1", "OMP_NUM_THREADS": "1", "MKL_NUM_THREADS": "1",
+              "OPENBLAS_NUM_THREADS": "1"}
 LOCK_FILE = ".polarsky-batch.lock"
 
 #: Columns of summary.csv, in order.
@@ -392,7 +396,7 @@ def batch_client(*, workers: int, scheduler: str | None, scratch: Path, dashboar
     cluster = LocalCluster(n_workers=workers, threads_per_worker=1, processes=True, host="127.0.0.1",
                            dashboard_address="127.0.0.1:0", scheduler_kwargs={"dashboard": bool(dashboard)},
                            worker_dashboard_address=None, local_directory=str(scratch),
-                           silence_logs=logging.CRITICAL)
+                           silence_logs=logging.CRITICAL, env=WORKER_ENV)
     try:
         client = Client(cluster)
         try:
