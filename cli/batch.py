@@ -45,7 +45,7 @@ def _angles(text):
 @click.option("--angle-offset", "angle_offset_deg", type=float, help="Degrees added to every analyzer angle.")
 @click.option("--align/--no-align", default=None, help="Register frames to the first before estimating.")
 @click.option("--calibration", type=click.Path(path_type=Path), help="Calibration file (CAL.nc).")
-@click.option("--max-pixels", type=int, help="Downsample frames larger than this many pixels.")
+@click.option("--max-pixels", type=int, help="Refuse frames larger than this many pixels (per frame).")
 @click.option("--mosaic", "mosaic_cell", metavar="CELL",
               help="Frames are raw polarization-mosaic frames, each its own bracket; CELL is the 2x2 cell's "
                    "micro-polarizer angles, rows split by ';', e.g. \"90,45;135,0\".")

@@ -13,7 +13,7 @@ Example (every key optional)::
     angle_offset_deg = 0.0
     align = false
     calibration = "cal.nc"         # relative to this file
-    max_pixels = 4000000
+    max_pixels = 250000000         # refuse larger frames
     pictures = true                # PNG maps (and the report's DoLP/AoLP thumbnails)
 
     [advise]                       # present -> advice for every bracket
