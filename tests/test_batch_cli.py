@@ -61,6 +61,7 @@ def test_bad_input_exits_2_with_one_error_line(tmp_path, capsys):
     cases = [
         (["batch", str(root)], "--out DIR is required"),
         (["batch", str(tmp_path / "none"), "--out", str(tmp_path / "o")], "is not a folder"),
+        (["batch", str(root), "--out", str(root / "a" / "pier_000deg.tif")], "exists and is not a folder"),
         (["batch", str(root), "--out", str(tmp_path / "o"), "--workers", "2", "--scheduler", "tcp://127.0.0.1:1"],
          "--workers sizes the local cluster"),
         (["batch", str(root), "--list", "--angles", "0,x,90"], "--angles"),
@@ -71,6 +72,7 @@ def test_bad_input_exits_2_with_one_error_line(tmp_path, capsys):
         assert main(args) == 2, args
         err = capsys.readouterr().err.strip().splitlines()
         assert len(err) == 1 and err[0].startswith("error: ") and match in err[0], (args, err)
+    assert not (tmp_path / "o").exists()  # nothing made for a bad ROOT
     cfg = tmp_path / "bad.toml"
     cfg.write_text("[stokes]\ntransfr = 'srgb'\n[advice]\nregion = [0, 0, 4, 4]\n")
     assert main(["batch", str(root), "--list", "--config", str(cfg)]) == 2

@@ -460,14 +460,15 @@ def run_batch(root, out_dir, *, settings: dict, workers: int | None = None, sche
     """
     t0 = time.perf_counter()
     root = Path(root)
-    out_dir = Path(out_dir)
+    out_dir = Path(out_dir).resolve()
+    check_steps(settings)
+    brackets = list_brackets(root, out_dir, settings=settings)  # checks ROOT before DIR is made
+    if out_dir.exists() and not out_dir.is_dir():
+        raise InputError(f"--out {out_dir} exists and is not a folder; give a folder path")
     try:
         out_dir.mkdir(parents=True, exist_ok=True)
     except OSError as exc:
         raise InputError(f"cannot create the output folder {out_dir}: {exc.strerror}") from None
-    out_dir = out_dir.resolve()
-    check_steps(settings)
-    brackets = list_brackets(root, out_dir, settings=settings)
     run_id = f"{time.strftime('%Y%m%dT%H%M%S')}-{uuid.uuid4().hex[:8]}"
     rows: dict[int, dict] = {}
     with _lock(out_dir):
