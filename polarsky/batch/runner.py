@@ -292,7 +292,8 @@ def process_bracket(task: dict) -> dict:
     marker = state.read_complete(final)
     if marker is not None and marker.get("key") == key:
         row = dict(marker["row"])
-        row["status"] = "skipped"
+        # finished by this same run (a task retried after its worker died): done, not skipped
+        row["status"] = "done" if marker.get("run_id") == task["run_id"] else "skipped"
         return row
     tmp = out_dir / state.TMP_DIR / f"{bracket.name}.{os.getpid()}.{uuid.uuid4().hex[:12]}"
     tmp.mkdir(parents=True)
@@ -504,30 +505,52 @@ def run_batch(root, out_dir, *, settings: dict, workers: int | None = None, sche
             "elapsed_s": round(time.perf_counter() - t0, 3), "rows": ordered}
 
 
+def process_brackets(tasks: list) -> list:
+    """Process several brackets in one dask task (rows in the same order)."""
+    return [process_bracket(t) for t in tasks]
+
+
+def chunk_size(n_brackets: int, n_workers: int) -> int:
+    """Brackets per dask task: 1 for few brackets, up to 8 for many (each dask task costs
+    milliseconds of scheduling; at least 8 tasks per worker keep the load balanced).
+
+    >>> chunk_size(10, 2), chunk_size(40, 2), chunk_size(40, 1), chunk_size(10000, 2)
+    (1, 2, 5, 8)
+    """
+    return int(max(1, min(8, n_brackets // max(1, 8 * n_workers))))
+
+
 def _gather(client, tasks, run_id, progress) -> dict[int, dict]:
     from distributed import as_completed
     from tqdm import tqdm
 
+    try:
+        n_workers = max(1, len(client.scheduler_info().get("workers", {})))
+    except Exception:  # scheduler_info needs a live connection; any failure -> 1
+        n_workers = 1
+    k = chunk_size(len(tasks), n_workers)
     futures = {}
-    for i, task in enumerate(tasks):
-        f = client.submit(process_bracket, task, key=f"polarsky-bracket-{run_id}-{i}", pure=False,
-                          priority=-i)
-        futures[f] = i
+    for c0 in range(0, len(tasks), k):
+        idx = list(range(c0, min(c0 + k, len(tasks))))
+        f = client.submit(process_brackets, [tasks[i] for i in idx], key=f"polarsky-brackets-{run_id}-{c0}",
+                          pure=False, priority=-c0)
+        futures[f] = idx
     rows: dict[int, dict] = {}
     counts = {"done": 0, "skipped": 0, "failed": 0}
     bar = tqdm(total=len(tasks), unit="bracket", file=sys.stderr, disable=not progress,
                dynamic_ncols=True, smoothing=0.1)
     try:
         for f in as_completed(list(futures)):
-            i = futures[f]
+            idx = futures[f]
             try:
-                row = f.result()
+                got = f.result()
             except Exception as exc:  # the task itself died (e.g. its worker was killed repeatedly)
-                row = _row(tasks[i]["bracket"], status="failed", error=_reason(exc))
-            rows[i] = row
-            counts[row["status"]] += 1
+                got = [_row(tasks[i]["bracket"], status="failed", error=_reason(exc)) for i in idx]
+            for i, row in zip(idx, got):
+                rows[i] = row
+                counts[row["status"]] += 1
             bar.set_postfix(counts, refresh=False)
-            bar.update(1)
+            bar.update(len(idx))
     finally:
         bar.close()
     return rows
