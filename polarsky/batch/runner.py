@@ -510,14 +510,36 @@ def process_brackets(tasks: list) -> list:
     return [process_bracket(t) for t in tasks]
 
 
-def chunk_size(n_brackets: int, n_workers: int) -> int:
-    """Brackets per dask task: 1 for few brackets, up to 8 for many (each dask task costs
-    milliseconds of scheduling; at least 8 tasks per worker keep the load balanced).
+#: Brackets with more input bytes than this go one per dask task.
+SMALL_BRACKET_BYTES = 16 * 2**20
+
+
+def chunk_size(n_brackets: int, n_workers: int, mean_bytes: float = 0.0) -> int:
+    """Brackets per dask task: 1 for few or large brackets, up to 8 for many small ones (a
+    dask task costs milliseconds of scheduling; at least 8 tasks per worker keep the load
+    balanced and the progress bar moving).
 
     >>> chunk_size(10, 2), chunk_size(40, 2), chunk_size(40, 1), chunk_size(10000, 2)
     (1, 2, 5, 8)
+    >>> chunk_size(10000, 2, mean_bytes=800e6)
+    1
     """
+    if mean_bytes > SMALL_BRACKET_BYTES:
+        return 1
     return int(max(1, min(8, n_brackets // max(1, 8 * n_workers))))
+
+
+def _mean_input_bytes(tasks) -> float:
+    sizes = []
+    for t in tasks[:200]:  # a sample is enough
+        total = 0
+        for f in t["bracket"].frames:
+            try:
+                total += os.stat(f).st_size
+            except OSError:
+                pass
+        sizes.append(total)
+    return sum(sizes) / len(sizes) if sizes else 0.0
 
 
 def _gather(client, tasks, run_id, progress) -> dict[int, dict]:
@@ -528,7 +550,7 @@ def _gather(client, tasks, run_id, progress) -> dict[int, dict]:
         n_workers = max(1, len(client.scheduler_info().get("workers", {})))
     except Exception:  # scheduler_info needs a live connection; any failure -> 1
         n_workers = 1
-    k = chunk_size(len(tasks), n_workers)
+    k = chunk_size(len(tasks), n_workers, _mean_input_bytes(tasks))
     futures = {}
     for c0 in range(0, len(tasks), k):
         idx = list(range(c0, min(c0 + k, len(tasks))))
