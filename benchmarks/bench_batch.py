@@ -45,6 +45,14 @@ def _warm():
     return os.getpid()
 
 
+def _system_busy() -> float:
+    """CPU seconds all processes of the machine have been busy (all cores)."""
+    import psutil
+
+    t = psutil.cpu_times()
+    return t.user + t.system + getattr(t, "nice", 0.0) + getattr(t, "irq", 0.0) + getattr(t, "softirq", 0.0)
+
+
 def _cpu_seconds() -> float:
     """CPU seconds (user + system) used so far by this process and its live children."""
     import psutil
@@ -119,22 +127,29 @@ def main(argv=None) -> int:
                 client.run(_warm)
                 t_start = time.perf_counter() - t0
                 run_batch(warm_root, work / f"warm-out{n}", settings=settings, client=client)
-                times, cpus = [], []
+                times, cpus, others, busy = [], [], [], []
                 for rep in range(a.repeat):
                     out = work / f"out{n}-{rep}"
-                    c1 = _cpu_seconds()
+                    c1, s1 = _cpu_seconds(), _system_busy()
                     t1 = time.perf_counter()
                     result = run_batch(root, out, settings=settings, client=client)
-                    times.append(time.perf_counter() - t1)
-                    cpus.append((_cpu_seconds() - c1) / len(brackets))
+                    wall = time.perf_counter() - t1
+                    mine = _cpu_seconds() - c1
+                    times.append(wall)
+                    cpus.append(mine / len(brackets))
+                    others.append(max(0.0, (_system_busy() - s1 - mine) / wall))
+                    busy.append(sum(r["time_s"] for r in result["rows"]) / (wall * n))
                     assert result["done"] == len(brackets), result["failed"]
             best = min(times)
+            k = times.index(best)
             cpu_per_bracket[n] = min(cpus)
             rates[n] = len(brackets) / best
             per_bracket[n] = best / len(brackets)
             print(f"batch, {n} worker{'s' if n > 1 else ''}: {rates[n]:.2f} brackets/s "
                   f"({per_bracket[n] * 1e3:.1f} ms per bracket; runs {', '.join(f'{t:.2f}' for t in times)} s; "
                   f"cluster start + warm-up {t_start:.1f} s)")
+            print(f"    in the best run: workers busy {busy[k] * 100:.0f} % of the time; other processes on the "
+                  f"machine used {others[k]:.2f} of its {os.cpu_count()} cores")
         ratio = rates[2] / rates[1]
         overhead = per_bracket[1] / t_direct - 1.0
         print(f"scaling ratio 2 vs 1 workers: {ratio:.2f} (target >= 1.7)")
