@@ -49,6 +49,7 @@ def test_every_mosaic_frame_is_a_bracket(mosaic_root, tmp_path):
     for r, dolp in zip(rows, (0.2, 0.35)):
         summary = json.loads((out / r["name"] / "summary.json").read_text())
         assert summary["mosaic"] == LAY and summary["demosaic"] == "superpixel"
+        assert r["angles_deg"] == ";".join(f"{a:g}" for a in summary["analyzer_angles_deg"])
         # uniform invented scene of known DoLP (our own render)
         assert r["mean_dolp"] == pytest.approx(dolp, abs=2e-3)
 

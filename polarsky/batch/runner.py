@@ -336,6 +336,8 @@ def process_bracket(task: dict) -> dict:
         warn_text = " | ".join(sorted({one_line(str(w.message)) for w in caught
                                        if issubclass(w.category, PolarskyWarning)}))
         row = _row(bracket, status="done", warnings=warn_text, **values)
+        if not row["angles_deg"] and isinstance(summary, dict) and summary.get("analyzer_angles_deg"):
+            row["angles_deg"] = ";".join(f"{float(a):g}" for a in summary["analyzer_angles_deg"])
         row["time_s"] = round(time.perf_counter() - t0, 3)
         state.write_marker(tmp, key=key, row=row, run_id=task["run_id"])
         try:
