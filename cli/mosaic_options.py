@@ -14,7 +14,8 @@ from polarsky.errors import InputError
 from polarsky.mosaic.demosaic import DEMOSAIC_METHODS
 from polarsky.mosaic.layout import BAYER_ORDERS
 
-__all__ = ["mosaic_options", "mosaic_dataset_from_options", "MOSAIC_OPTION_NAMES"]
+__all__ = ["mosaic_options", "mosaic_dataset_from_options", "mosaic_run_from_options", "strip_mosaic_options",
+           "MOSAIC_OPTION_NAMES"]
 
 MOSAIC_OPTION_NAMES = ("mosaic", "mosaic_colour", "demosaic", "bit_depth", "black_level")
 
@@ -57,7 +58,8 @@ def mosaic_dataset_from_options(frames, options, *, calibration=None, transfer="
     calibration, transfer, max_pixels
         Passed on to :func:`polarsky.mosaic.stokes_from_mosaic_files`.
     bracket_values : dict, optional
-        Bracket-only options as ``{"--angles": value, ...}``; any that is set together with
+        Library keyword arguments of the bracket options (``angles_deg``, ``manifest``,
+        ``extinction``, ``angle_offset_deg``, ``align``); any that is set together with
         ``--mosaic`` is an error.
 
     Raises
@@ -73,9 +75,7 @@ def mosaic_dataset_from_options(frames, options, *, calibration=None, transfer="
             raise InputError(f"{', '.join(extra)} only apply to mosaic frames; add --mosaic CELL (e.g. \"90,45;135,0\") "
                              "or drop them")
         return None
-    for name, value in (bracket_values or {}).items():
-        if value not in (None, False, (), [], 0.0) :
-            raise InputError(f"{name} describes a bracket of frames and cannot be used with --mosaic; drop {name}")
+    _check_bracket_only(bracket_values)
     from polarsky.mosaic import stokes_from_mosaic_files
 
     bd = options.get("bit_depth")
@@ -97,3 +97,58 @@ def strip_mosaic_options(kwargs):
     return {k: kwargs.pop(k, None) for k in MOSAIC_OPTION_NAMES}
 
 
+
+
+#: Bracket-only library options that make no sense with --mosaic (name on the command line, unset value).
+_BRACKET_ONLY = {"angles_deg": ("--angles", None), "manifest": ("--manifest", None),
+                 "extinction": ("--extinction", None), "angle_offset_deg": ("--angle-offset", 0.0),
+                 "align": ("--align", False)}
+
+
+def _check_bracket_only(bracket_opts):
+    for key, (flag, unset) in _BRACKET_ONLY.items():
+        v = (bracket_opts or {}).get(key, unset)
+        if v not in (unset, None):
+            raise InputError(f"{flag} describes a bracket of frames and cannot be used with --mosaic "
+                             f"(the mosaic fixes the analyzer angles); drop {flag}")
+
+
+def mosaic_run_from_options(frames, out_dir, options, *, bracket_opts=None):
+    """Write the Stokes outputs of mosaic frames (as ``polarsky stokes`` does for brackets).
+
+    Parameters
+    ----------
+    frames : sequence of path
+    out_dir : path
+    options : dict
+        The mosaic options (see :func:`strip_mosaic_options`).
+    bracket_opts : dict, optional
+        The library keyword arguments of the bracket options (``cli.common.bracket_kwargs``);
+        ``transfer``, ``calibration``, ``max_pixels`` and the noise options are used, the
+        bracket-only ones must be unset.
+
+    Returns
+    -------
+    dict or None
+        The summary, or ``None`` when ``--mosaic`` is absent (nothing done).
+    """
+    if options.get("mosaic") is None:
+        mosaic_dataset_from_options(frames, options)  # raises if mosaic-only options were given
+        return None
+    b = dict(bracket_opts or {})
+    _check_bracket_only(b)
+    from polarsky.mosaic import run_mosaic_stokes
+    from polarsky.pipeline import NoiseModel
+
+    noise = None
+    if any(k in b for k in ("gain_e_per_dn", "read_noise_dn", "noise")):
+        noise = NoiseModel(gain_e_per_dn=b.get("gain_e_per_dn"), read_noise_dn=float(b.get("read_noise_dn") or 1.0),
+                           source=b.get("noise") or "auto")
+    bd = options.get("bit_depth")
+    return run_mosaic_stokes(
+        list(frames), out_dir,
+        mosaic=options["mosaic"], mosaic_colour=options.get("mosaic_colour"),
+        demosaic=options.get("demosaic") or "bilinear", bit_depth=None if bd is None else int(bd),
+        black_level=options.get("black_level"), calibration=b.get("calibration"),
+        transfer=b.get("transfer") or "auto", max_pixels=b.get("max_pixels"), noise=noise,
+    )

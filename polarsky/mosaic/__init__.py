@@ -8,13 +8,14 @@ calibration for the Stokes fit), :mod:`.flatcal` (bench calibration), :mod:`.pip
 
 from .demosaic import DEMOSAIC_METHODS, demosaic
 from .layout import MosaicLayout, parse_mosaic
-from .pipeline import stokes_from_mosaic_files, stokes_from_mosaic_values
+from .pipeline import run_mosaic_stokes, stokes_from_mosaic_files, stokes_from_mosaic_values
 
 __all__ = [
     "DEMOSAIC_METHODS",
     "demosaic",
     "MosaicLayout",
     "parse_mosaic",
+    "run_mosaic_stokes",
     "stokes_from_mosaic_files",
     "stokes_from_mosaic_values",
 ]

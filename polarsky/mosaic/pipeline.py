@@ -2,33 +2,18 @@
 
 from __future__ import annotations
 
-import json
-
 import numpy as np
 
-from .._version import __version__
 from ..errors import InputError
 from .decode import decode_mosaic
 from .demosaic import validate_method
 from .io import read_mosaic_stack
 from .layout import check_frame_shape, parse_mosaic
 
-__all__ = ["stokes_from_mosaic_files", "stokes_from_mosaic_values", "ANGLE_CONVENTION"]
-
-ANGLE_CONVENTION = ("degrees in the image plane from the image +x axis (to the right), "
-                    "counter-clockwise as seen on the displayed image; AoLP in [0, 180)")
+__all__ = ["stokes_from_mosaic_files", "stokes_from_mosaic_values", "run_mosaic_stokes"]
 
 
-def _core():
-    try:
-        from ..pipeline import estimate_block
-    except ImportError:
-        from ._fallback import estimate_block
-    try:
-        from ..dataset import stokes_dataset
-    except ImportError:
-        from ._fallback import stokes_dataset
-    return estimate_block, stokes_dataset
+
 
 
 def _load_calibration(calibration):
@@ -39,45 +24,85 @@ def _load_calibration(calibration):
     return calibration if isinstance(calibration, Calibration) else read_calibration(calibration)
 
 
-def stokes_from_mosaic_values(values, invalid=None, *, mosaic, mosaic_colour=None, demosaic="bilinear",
-                              calibration=None, attrs=None):
-    """Stokes Dataset from linear mosaic values already in memory (see :func:`stokes_from_mosaic_files`)."""
+def _decoded(values, invalid, *, mosaic, mosaic_colour=None, demosaic="bilinear", calibration=None,
+             full_scale=65535.0, srgb=False, noise=None):
+    """Decode and estimate: returns (products, channels, attrs dict)."""
+    from ..pipeline import estimate_block
+
     layout = parse_mosaic(mosaic, mosaic_colour)
     method = validate_method(demosaic)
     values = np.asarray(values, dtype=np.float32)
     check_frame_shape(values.shape, layout)
     cal = _load_calibration(calibration)
     dec = decode_mosaic(values, invalid, layout, method.name, cal)
-    estimate_block, stokes_dataset = _core()
-    products = estimate_block(dec["intensities"], dec["valid"], dec["w"], solve=dec["solve"])
-    cal_text = "none"
+    products = estimate_block(dec["intensities"], dec["valid"], dec["w"], solve=dec["solve"], noise=noise,
+                              full_scale=float(full_scale), srgb=bool(srgb))
+    cal_attr = "none"
     if cal is not None:
-        parts = []
+        applied = []
         if cal.pixel:
-            parts.append("per-pixel analysis vectors (flat)")
+            applied.append("per-pixel analysis vectors (gain, diattenuation, angle)")
         if cal.angle_offset_deg is not None or cal.diattenuation is not None:
-            parts.append("per-position angle offsets/diattenuation")
-        cal_text = f"{cal.kind} calibration {cal.source or ''}: {', '.join(parts) or 'no corrections'}".strip()
-    a = {
-        "software_version": __version__,
-        "source": "polarization mosaic",
+            applied.append("angle offset / diattenuation per micro-polarizer position")
+        cal_attr = {"file": cal.source, "kind": cal.kind, "created": cal.attrs.get("created"),
+                    "applied": applied, "per_pixel": bool(dec["per_pixel"])}
+    attrs = {
+        "source_kind": "polarization mosaic",
         "mosaic": layout.text,
         "mosaic_colour": layout.colour or "none",
         "demosaic": method.name,
         "demosaic_reference": method.reference,
-        "output_pixel_size": method.scale,
-        "analyzer_angles_deg": json.dumps(list(layout.angles_deg)),
-        "analyzer_positions": "row-major 2x2 cell positions 0..3",
+        "output_pixel_size_px": method.scale,
+        "analyzer_angles_deg": list(layout.angles_deg),
+        "analyzer_positions": "micro-polarizer angles of the 2x2 cell positions 0..3, row-major",
         "polarizer": "sensor",
-        "calibration": cal_text,
+        "calibration": cal_attr,
         "calibration_per_pixel": int(bool(dec["per_pixel"])),
-        "calibration_file": (cal.source if cal is not None else ""),
-        "angle_convention": ANGLE_CONVENTION,
+        "analysis": dec["w"].tolist(),
     }
     if method.scale == 2:
-        a["grid"] = "output pixel (j, i) covers sensor pixels 2j..2j+1, 2i..2i+1 (centre at 2i+0.5, 2j+0.5)"
+        attrs["grid"] = ("superpixel: output pixel (y, x) covers sensor rows 2y..2y+1 and columns 2x..2x+1 "
+                         "(centre at sensor 2x+0.5, 2y+0.5)")
+    return products, dec["channels"], attrs
+
+
+def stokes_from_mosaic_values(values, invalid=None, *, mosaic, mosaic_colour=None, demosaic="bilinear",
+                              calibration=None, attrs=None):
+    """Stokes Dataset from linear mosaic values already in memory (see :func:`stokes_from_mosaic_files`).
+
+    Parameters
+    ----------
+    values : ndarray, shape (H, W)
+        Linear mosaic values (e.g. [0, 1] of full scale).
+    invalid : ndarray, shape (H, W), bool, optional
+        Raw pixels not to use.
+    """
+    from ..dataset import dataset_attrs, stokes_dataset
+
+    products, channels, a = _decoded(values, invalid, mosaic=mosaic, mosaic_colour=mosaic_colour,
+                                     demosaic=demosaic, calibration=calibration)
     a.update(attrs or {})
-    return stokes_dataset(products, channels=dec["channels"], attrs=a)
+    return stokes_dataset(products, channels=channels, attrs=dataset_attrs(**a))
+
+
+def _read(frames, layout, bit_depth, black_level, transfer, max_pixels):
+    stack = read_mosaic_stack(frames, bit_depth=bit_depth, black_level=black_level, transfer=transfer)
+    check_frame_shape(stack.values.shape, layout, source=str(stack.info["files"][0]))
+    if max_pixels is not None and stack.values.size > int(max_pixels):
+        h, w = stack.values.shape
+        raise InputError(f"mosaic frames are {w}x{h} = {stack.values.size} pixels, above --max-pixels "
+                         f"{int(max_pixels)}; raise --max-pixels")
+    info = stack.info
+    attrs = {
+        "inputs": info["files"],
+        "n_frames_averaged": info["n_frames"],
+        "transfer": info["transfer"],
+        "bit_depth": info["bit_depth"],
+        "black_level": info["black_level"],
+        "white_level": info["white_level"],
+        "masked_raw_pixels": info["masked_pixels"],
+    }
+    return stack, attrs
 
 
 def stokes_from_mosaic_files(frames, *, mosaic, mosaic_colour=None, demosaic="bilinear", bit_depth=None,
@@ -118,23 +143,101 @@ def stokes_from_mosaic_files(frames, *, mosaic, mosaic_colour=None, demosaic="bi
         Bad mosaic string, frame size not a multiple of the cell, unreadable frames,
         calibration for another sensor or layout.
     """
+    from ..dataset import dataset_attrs, stokes_dataset
+
     layout = parse_mosaic(mosaic, mosaic_colour)
     validate_method(demosaic)
-    stack = read_mosaic_stack(frames, bit_depth=bit_depth, black_level=black_level, transfer=transfer)
-    check_frame_shape(stack.values.shape, layout, source=str(stack.info["files"][0]))
-    if max_pixels is not None and stack.values.size > int(max_pixels):
-        h, w = stack.values.shape
-        raise InputError(f"mosaic frames are {w}x{h} = {stack.values.size} pixels, above --max-pixels {int(max_pixels)}; "
-                         "raise --max-pixels or crop the frames to a multiple of the cell")
-    info = stack.info
-    attrs = {
-        "input_files": json.dumps(info["files"]),
-        "n_frames_averaged": info["n_frames"],
-        "transfer": info["transfer"],
-        "bit_depth": info["bit_depth"],
-        "black_level": info["black_level"],
-        "white_level": info["white_level"],
-        "masked_raw_pixels": info["masked_pixels"],
-    }
-    return stokes_from_mosaic_values(stack.values, stack.invalid, mosaic=layout, mosaic_colour=mosaic_colour,
-                                     demosaic=demosaic, calibration=calibration, attrs=attrs)
+    stack, attrs = _read(frames, layout, bit_depth, black_level, transfer, max_pixels)
+    products, channels, a = _decoded(stack.values, stack.invalid, mosaic=layout, demosaic=demosaic,
+                                     calibration=calibration, full_scale=stack.info["white_level"],
+                                     srgb=stack.info["transfer"] == "srgb")
+    a.update(attrs)
+    return stokes_dataset(products, channels=channels, attrs=dataset_attrs(**a))
+
+
+def run_mosaic_stokes(frames, out_dir, *, mosaic, mosaic_colour=None, demosaic="bilinear", bit_depth=None,
+                      black_level=None, calibration=None, transfer="auto", max_pixels=None, noise=None,
+                      pictures=True) -> dict:
+    """Write ``stokes.nc``, ``summary.json`` and the PNG maps of mosaic frames into ``out_dir``.
+
+    The files are the same as for a bracket (:func:`polarsky.pipeline.run_stokes`) and appear
+    only once all are complete.  Options as for :func:`stokes_from_mosaic_files`.
+
+    Returns
+    -------
+    dict
+        The summary (also written to ``summary.json``).
+    """
+    import time
+
+    from .. import render
+    from ..dataset import VARIABLES, NetCDFBlockWriter, dataset_attrs
+    from ..pipeline import OutputStage, PreviewSink, StatsSink, write_json
+
+    if out_dir is None:
+        raise InputError("--out DIR is required: the folder for stokes.nc, summary.json and the pictures")
+    t0 = time.perf_counter()
+    layout = parse_mosaic(mosaic, mosaic_colour)
+    method = validate_method(demosaic)
+    stack, attrs = _read(frames, layout, bit_depth, black_level, transfer, max_pixels)
+    t_read = time.perf_counter() - t0
+    t1 = time.perf_counter()
+    products, channels, a = _decoded(stack.values, stack.invalid, mosaic=layout, demosaic=method.name,
+                                     calibration=calibration, full_scale=stack.info["white_level"],
+                                     srgb=stack.info["transfer"] == "srgb", noise=noise)
+    t_est = time.perf_counter() - t1
+    a.update(attrs)
+    nc_attrs = dataset_attrs(**a)
+    c, h, w = products["S0"].shape
+    names = [n for n in VARIABLES if n in products]
+    with OutputStage(out_dir) as stage:
+        t2 = time.perf_counter()
+        writer = NetCDFBlockWriter(stage.path("stokes.nc"), shape=(h, w), channels=channels, names=names,
+                                   attrs=nc_attrs)
+        try:
+            writer.write(0, h, products)
+            writer.commit()
+        except BaseException:
+            writer.abort()
+            raise
+        t_nc = time.perf_counter() - t2
+        preview = PreviewSink((h, w))
+        stats = StatsSink(c)
+        frame0 = products["S0"][None] * np.float32(0.5)
+        preview.write(0, h, products, frame0)
+        stats.write(0, h, products, frame0)
+        t3 = time.perf_counter()
+        pics = render.stokes_pictures(preview.finish(), stage.dir, channels=channels, step=preview.step) if pictures else []
+        t_pics = time.perf_counter() - t3
+        summary = {
+            "inputs": attrs["inputs"],
+            "frames": stack.info["n_frames"],
+            "source_kind": "polarization mosaic",
+            "mosaic": layout.text,
+            "mosaic_colour": layout.colour,
+            "demosaic": method.name,
+            "demosaic_reference": method.reference,
+            "analyzer_angles_deg": list(layout.angles_deg),
+            "angle_source": "mosaic layout",
+            "width": int(w),
+            "height": int(h),
+            "sensor_width": int(stack.values.shape[1]),
+            "sensor_height": int(stack.values.shape[0]),
+            "channels": channels,
+            "transfer": stack.info["transfer"],
+            "bit_depth": stack.info["bit_depth"],
+            "black_level": stack.info["black_level"],
+            "polarizer": "sensor",
+            "calibration": a["calibration"] if a["calibration"] != "none" else None,
+            "calibration_per_pixel": bool(a["calibration_per_pixel"]),
+            "masked_raw_pixels": stack.info["masked_pixels"],
+            "uncertainty_source": (noise.resolved_source(4) if noise is not None else "residual"),
+            **stats.summary(channels),
+            "outputs": ["stokes.nc", "summary.json"] + [p.name for p in pics],
+        }
+        summary["timing_s"] = {"read": round(t_read, 4), "decode_estimate": round(t_est, 4),
+                               "write_netcdf": round(t_nc, 4), "write_pictures": round(t_pics, 4),
+                               "total": round(time.perf_counter() - t0, 4)}
+        write_json(stage.path("summary.json"), summary)
+        stage.publish()
+    return summary
