@@ -11,7 +11,7 @@ from __future__ import annotations
 import click
 
 from polarsky.errors import InputError
-from polarsky.mosaic.demosaic import DEMOSAIC_METHODS
+from polarsky.mosaic.methods import DEMOSAIC_METHODS
 from polarsky.mosaic.layout import BAYER_ORDERS
 
 __all__ = ["mosaic_options", "mosaic_dataset_from_options", "mosaic_run_from_options", "strip_mosaic_options",

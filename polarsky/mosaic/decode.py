@@ -33,7 +33,7 @@ import numpy as np
 
 from ..errors import InputError
 from ..stokes import analysis_matrix
-from .demosaic import BILINEAR_KERNEL, _BORDER, interpolate_bilinear_stack, invalid_after, validate_method
+from .methods import BILINEAR_KERNEL, _BORDER, interpolate_bilinear_stack, invalid_after, validate_method
 from .layout import MosaicLayout, bayer_cell_colours
 
 __all__ = ["decode_mosaic", "per_pixel_solve", "position_matrix", "check_calibration", "bayer_bilinear"]
@@ -286,7 +286,7 @@ def decode_mosaic(values, invalid, layout: MosaicLayout, method="bilinear", cali
         Invalid raw pixels (saturated, at black).
     layout : MosaicLayout
     method : str
-        Registry key of :data:`polarsky.mosaic.demosaic.DEMOSAIC_METHODS`.
+        Registry key of :data:`polarsky.mosaic.methods.DEMOSAIC_METHODS`.
     calibration : polarsky.calibration.Calibration, optional
         Sky (per-position offsets) and/or flat (per-pixel) calibration.
 

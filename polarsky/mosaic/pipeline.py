@@ -6,7 +6,7 @@ import numpy as np
 
 from ..errors import InputError
 from .decode import decode_mosaic
-from .demosaic import validate_method
+from .methods import validate_method
 from .io import read_mosaic_stack
 from .layout import check_frame_shape, parse_mosaic
 
