@@ -78,7 +78,7 @@ def command(frames, angles, out, mosaic, mosaic_colour, dark, bit_depth, black_l
         if "angle_error_rms_deg" not in p:
             continue
         lo, _, hi = p["angle_error_p05_p50_p95_deg"]
-        elo, emed, ehi = p["extinction_ratio_p05_p50_p95"]
+        elo, emed, ehi = (float("inf") if v is None else v for v in p["extinction_ratio_p05_p50_p95"])
         click.echo(f"{p['position']:>3} {p.get('colour', '-'):>3} {p['nominal_angle_deg']:>7g} "
                    f"{p['angle_error_mean_deg']:>8.3f} {p['angle_error_rms_deg']:>7.3f} {lo:>7.2f}..{hi:<7.2f} "
                    f"{emed:>7.1f} {elo:>7.1f}..{ehi:<7.1f} {p['gain_std']:>7.4f}")

@@ -239,8 +239,10 @@ def flat_summary(fit: FlatFit) -> dict:
             sel = (pos_map == p) & g & ok
             err = (fit.angle_deg[sel] - nominal[p] + 90.0) % 180.0 - 90.0
             d = fit.diattenuation[sel].astype(np.float64)
-            with np.errstate(divide="ignore"):
-                er = np.where(d < 1, (1 + d) / (1 - d), np.inf)
+            d_pct = np.percentile(d, [5, 50, 95])
+            # ER = (1 + D)/(1 - D) is monotonic in D: its percentiles are those of D mapped;
+            # None where D reached 1 within the noise (ER not resolved)
+            er_pct = [None if v >= 1 else round(float((1 + v) / (1 - v)), 1) for v in d_pct]
             entry = {"position": p, "nominal_angle_deg": float(nominal[p]), "pixels": int(sel.sum())}
             if names[0] != "all":
                 entry["colour"] = names[gi]
@@ -250,8 +252,8 @@ def flat_summary(fit: FlatFit) -> dict:
                     angle_error_std_deg=round(float(err.std()), 4),
                     angle_error_rms_deg=round(float(np.sqrt(np.mean(err**2))), 4),
                     angle_error_p05_p50_p95_deg=[round(float(v), 4) for v in np.percentile(err, [5, 50, 95])],
-                    diattenuation_p05_p50_p95=[round(float(v), 5) for v in np.percentile(d, [5, 50, 95])],
-                    extinction_ratio_p05_p50_p95=[round(float(v), 1) for v in np.percentile(er, [5, 50, 95])],
+                    diattenuation_p05_p50_p95=[round(float(v), 5) for v in d_pct],
+                    extinction_ratio_p05_p50_p95=er_pct,
                     gain_std=round(float(fit.gain[sel].std()), 5),
                 )
             positions.append(entry)

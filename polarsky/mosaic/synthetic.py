@@ -114,3 +114,35 @@ def bench_frames(shape, layout, angles_deg, *, angle_deg, diattenuation, gain, l
         f = mosaic_sample(s, layout, angle_deg=angle_deg, diattenuation=diattenuation, gain=gain, dtype=np.float64)
         frames.append((f + dark + rng.normal(0, noise, shape)).astype(np.float32) if noise else (f + dark).astype(np.float32))
     return frames
+
+
+def write_mosaic_png(path, raw, *, bits=16, full=None, black=0):
+    """Write linear mosaic values (0..1 of full scale) as a mono PNG (8 or 16 bit container),
+    optionally holding ``full``-bit data (e.g. 12-bit values in a 16-bit PNG) above a black level."""
+    import cv2
+
+    full = (2 ** bits - 1) if full is None else full
+    counts = np.round(black + np.clip(raw, 0, 1) * (full - black)).astype(np.uint8 if bits == 8 else np.uint16)
+    if not cv2.imwrite(str(path), counts):
+        raise OSError(f"cannot write {path}")
+    return path
+
+
+def write_mosaic_dng(path, raw, *, white=4095, black=64):
+    """Write linear mosaic values as a minimal raw DNG (CFA photometric, 16-bit container)."""
+    import tifffile
+
+    counts = np.round(black + np.clip(raw, 0, 1) * (white - black)).astype(np.uint16)
+    tags = [
+        (33421, "H", 2, (2, 2), True),             # CFARepeatPatternDim
+        (33422, "B", 4, (0, 1, 1, 2), True),       # CFAPattern (nominal; the mosaic is given with --mosaic)
+        (50706, "B", 4, (1, 4, 0, 0), True),       # DNGVersion
+        (50708, "s", 0, "Synthetic mosaic camera", True),
+        (50714, "H", 1, (int(black),), True),      # BlackLevel
+        (50717, "H", 1, (int(white),), True),      # WhiteLevel
+        (50721, "2i", 9, (10000, 10000, 0, 10000, 0, 10000, 0, 10000, 0, 10000,
+                          0, 10000, 0, 10000, 0, 10000, 10000, 10000), True),  # ColorMatrix1 = identity
+        (50778, "H", 1, (21,), True),              # CalibrationIlluminant1 = D65
+    ]
+    tifffile.imwrite(str(path), counts, photometric=32803, extratags=tags, subfiletype=0)
+    return path
