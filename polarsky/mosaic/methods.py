@@ -215,21 +215,60 @@ def demosaic_newton_li2019(raw, *, eps_rel=1e-3):
        (diagonal-first, gradient-directed order).
     """
     a = _as_float(raw)
-    h, w = a.shape
+    out = np.empty((4,) + a.shape, dtype=a.dtype)
+
+    def emit(planes, rows, r0, r1, s0):
+        for p in range(4):
+            out[p, r0:r1] = interleave(planes[p])[r0 - s0:r1 - s0]
+
+    _newton_strips(a, eps_rel, emit)
+    return out
+
+
+def newton_stokes_li2019(raw, solve, *, eps_rel=1e-3):
+    """Stokes maps straight from :func:`demosaic_newton_li2019` strips (fast path).
+
+    Parameters
+    ----------
+    raw : ndarray, shape (H, W)
+    solve : ndarray, shape (3, 4)
+        Solve matrix of the four positions (e.g. ``solve_matrix(analysis_matrix(angles))``).
+
+    Returns
+    -------
+    ndarray, shape (3, H, W)
+    """
+    a = _as_float(raw)
+    pm = np.asarray(solve, dtype=a.dtype)
+    out = np.empty((3,) + a.shape, dtype=a.dtype)
+
+    def emit(planes, rows, r0, r1, s0):
+        for k in range(3):
+            st = []
+            for t in range(4):
+                acc = planes[0][t] * pm[k, 0]
+                for p in range(1, 4):
+                    if pm[k, p] != 0:
+                        acc += planes[p][t] * pm[k, p]
+                st.append(acc)
+            out[k, r0:r1] = interleave(st)[r0 - s0:r1 - s0]
+
+    _newton_strips(a, eps_rel, emit)
+    return out
+
+
+def _newton_strips(a, eps_rel, emit):
+    """Run the Newton method on overlapping row strips (cache-friendly, on all cores); the
+    result is identical to processing the whole frame at once."""
+    h = a.shape[0]
     eps = eps_rel * max(float(np.mean(np.abs(a))), 1e-12)
-    out = np.empty((4, h, w), dtype=a.dtype)
-    # row strips with an overlap of _NEWTON_MARGIN rows: cache-friendly and run on all cores;
-    # the result is identical to processing the whole frame at once
     step = _NEWTON_STRIP
     starts = list(range(0, h, step))
 
     def run(r0):
         r1 = min(h, r0 + step)
         s0, s1 = max(0, r0 - _NEWTON_MARGIN), min(h, r1 + _NEWTON_MARGIN)
-        planes = newton_planes_li2019(a[s0:s1], eps=eps)
-        for p in range(4):
-            full = interleave(planes[p])
-            out[p, r0:r1] = full[r0 - s0:r1 - s0]
+        emit(newton_planes_li2019(a[s0:s1], eps=eps), (s0, s1), r0, r1, s0)
 
     if len(starts) == 1:
         run(0)
@@ -238,7 +277,6 @@ def demosaic_newton_li2019(raw, *, eps_rel=1e-3):
 
         with ThreadPoolExecutor(max_workers=_workers()) as ex:
             list(ex.map(run, starts))
-    return out
 
 
 _NEWTON_STRIP = 256  # rows per strip (even)

@@ -12,7 +12,7 @@ import numpy as np
 from .layout import MosaicLayout, bayer_cell_colours, parse_mosaic
 
 __all__ = ["mosaic_sample", "scene_uniform", "scene_edges", "scene_texture", "scene_gradient",
-           "bench_frames", "SCENES"]
+           "bench_frames", "SCENES", "write_mosaic_png", "write_mosaic_dng"]
 
 
 def _stokes(s0, dolp, aolp_deg):

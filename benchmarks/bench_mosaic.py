@@ -1,0 +1,81 @@
+"""Speed of mosaic decoding plus Stokes on a 2448x2048 mono frame, per method.
+
+Prints frames per second of (a) decoding + S0, S1, S2 (the issue's figure; targets: superpixel
+and bilinear >= 20 fps, the higher-order method >= 2 fps on the 2-core reference machine),
+(b) the same plus DoLP and AoLP (polarsky.stokes.dolp_aolp), and (c) the full per-pixel
+products of the Dataset path (channels + polarsky.pipeline.estimate_block: uncertainties,
+debiased DoLP, residual), beside the time of one plain copy of the frame's bytes.
+
+Run from the repository root:  python benchmarks/bench_mosaic.py [--repeat 7]
+Times are the best of --repeat runs (the machine may be shared); the median is shown too.
+"""
+
+from __future__ import annotations
+
+import argparse
+import os
+import sys
+import time
+
+import numpy as np
+
+sys.path.insert(0, os.path.join(os.path.dirname(__file__), ".."))
+
+from polarsky.mosaic.decode import decode_mosaic, fast_stokes, position_matrix  # noqa: E402
+from polarsky.mosaic.layout import parse_mosaic  # noqa: E402
+from polarsky.mosaic.methods import DEMOSAIC_METHODS  # noqa: E402
+from polarsky.mosaic.synthetic import mosaic_sample, scene_edges  # noqa: E402
+from polarsky.pipeline import estimate_block  # noqa: E402
+from polarsky.stokes import dolp_aolp  # noqa: E402
+
+W_PX, H_PX = 2448, 2048
+
+
+def best(f, repeat):
+    f()  # warm-up
+    t = []
+    for _ in range(repeat):
+        t0 = time.perf_counter()
+        f()
+        t.append(time.perf_counter() - t0)
+    return min(t), float(np.median(t))
+
+
+def main(argv=None):
+    ap = argparse.ArgumentParser(description=__doc__.splitlines()[0])
+    ap.add_argument("--repeat", type=int, default=7)
+    ap.add_argument("--full", action="store_true", help="also time the full Dataset products (slow)")
+    args = ap.parse_args(argv)
+    layout = parse_mosaic("90,45;135,0")
+    rng = np.random.default_rng(0)
+    raw = mosaic_sample(scene_edges(H_PX, W_PX), layout)
+    counts = np.clip(np.round((raw + rng.normal(0, 0.002, raw.shape)) * 4095), 0, 4095).astype(np.uint16)
+    values = counts.astype(np.float32) / np.float32(4095)
+    w = position_matrix(layout)
+    print(f"mosaic frame {W_PX}x{H_PX}, 12-bit data in uint16 ({counts.nbytes / 1e6:.1f} MB), "
+          f"float32 linear values; {os.cpu_count()} CPUs, load average {os.getloadavg()[0]:.2f}")
+    tc, tcm = best(lambda: counts.copy(), args.repeat)
+    print(f"plain copy of the frame's bytes: {tc * 1e3:.2f} ms (median {tcm * 1e3:.2f})")
+    print(f"{'method':<11} {'decode+S0,S1,S2':>22} {'+ DoLP, AoLP':>22}" + (f" {'Dataset products':>22}" if args.full else ""))
+    for name in DEMOSAIC_METHODS:
+        t1, m1 = best(lambda: fast_stokes(values, w, name), args.repeat)
+
+        def with_dolp():
+            s = fast_stokes(values, w, name)
+            dolp_aolp(s)
+
+        t2, m2 = best(with_dolp, args.repeat)
+        line = f"{name:<11} {1 / t1:7.1f} fps ({t1 * 1e3:6.1f} ms) {1 / t2:7.1f} fps ({t2 * 1e3:6.1f} ms)"
+        if args.full:
+            def full():
+                dec = decode_mosaic(values, None, layout, name)
+                estimate_block(dec["intensities"], dec["valid"], dec["w"], full_scale=4095.0)
+
+            t3, _ = best(full, max(2, args.repeat // 3))
+            line += f" {1 / t3:7.2f} fps ({t3 * 1e3:6.0f} ms)"
+        print(line)
+    print("targets: superpixel and bilinear >= 20 fps, newton >= 2 fps (decode + S0, S1, S2)")
+
+
+if __name__ == "__main__":
+    main()
