@@ -32,19 +32,24 @@ W_PX, H_PX = 2448, 2048
 
 
 def best(f, repeat):
+    """Best and median wall time, and the CPU time (all threads) of the best run."""
     f()  # warm-up
-    t = []
+    t, c = [], []
     for _ in range(repeat):
-        t0 = time.perf_counter()
+        c0, t0 = time.process_time(), time.perf_counter()
         f()
         t.append(time.perf_counter() - t0)
-    return min(t), float(np.median(t))
+        c.append(time.process_time() - c0)
+    i = int(np.argmin(t))
+    best.cpu = c[i]
+    return t[i], float(np.median(t))
 
 
 def main(argv=None):
     ap = argparse.ArgumentParser(description=__doc__.splitlines()[0])
     ap.add_argument("--repeat", type=int, default=7)
     ap.add_argument("--full", action="store_true", help="also time the full Dataset products (slow)")
+    ap.add_argument("--write", action="store_true", help="put the printed lines into docs/mosaic.md")
     args = ap.parse_args(argv)
     layout = parse_mosaic("90,45;135,0")
     rng = np.random.default_rng(0)
@@ -52,20 +57,28 @@ def main(argv=None):
     counts = np.clip(np.round((raw + rng.normal(0, 0.002, raw.shape)) * 4095), 0, 4095).astype(np.uint16)
     values = counts.astype(np.float32) / np.float32(4095)
     w = position_matrix(layout)
-    print(f"mosaic frame {W_PX}x{H_PX}, 12-bit data in uint16 ({counts.nbytes / 1e6:.1f} MB), "
+    lines = []
+
+    def say(text):  # print and keep the line for --write
+        lines.append(text)
+        print(text)
+
+    say(f"mosaic frame {W_PX}x{H_PX}, 12-bit data in uint16 ({counts.nbytes / 1e6:.1f} MB), "
           f"float32 linear values; {os.cpu_count()} CPUs, load average {os.getloadavg()[0]:.2f}")
     tc, tcm = best(lambda: counts.copy(), args.repeat)
-    print(f"plain copy of the frame's bytes: {tc * 1e3:.2f} ms (median {tcm * 1e3:.2f})")
-    print(f"{'method':<11} {'decode+S0,S1,S2':>22} {'+ DoLP, AoLP':>22}" + (f" {'Dataset products':>22}" if args.full else ""))
+    say(f"plain copy of the frame's bytes: {tc * 1e3:.2f} ms (median {tcm * 1e3:.2f})")
+    say(f"{'method':<11} {'decode+S0,S1,S2 (wall, cpu of all threads)':>44} {'+ DoLP, AoLP':>22}" + (f" {'Dataset products':>22}" if args.full else ""))
     for name in DEMOSAIC_METHODS:
         t1, m1 = best(lambda: fast_stokes(values, w, name), args.repeat)
+        c1 = best.cpu
 
         def with_dolp():
             s = fast_stokes(values, w, name)
             dolp_aolp(s)
 
         t2, m2 = best(with_dolp, args.repeat)
-        line = f"{name:<11} {1 / t1:7.1f} fps ({t1 * 1e3:6.1f} ms) {1 / t2:7.1f} fps ({t2 * 1e3:6.1f} ms)"
+        line = (f"{name:<11} {1 / t1:7.1f} fps ({t1 * 1e3:6.1f} ms, cpu {c1 * 1e3:6.1f} ms) "
+                f"{1 / t2:7.1f} fps ({t2 * 1e3:6.1f} ms)")
         if args.full:
             def full():
                 dec = decode_mosaic(values, None, layout, name)
@@ -73,8 +86,18 @@ def main(argv=None):
 
             t3, _ = best(full, max(2, args.repeat // 3))
             line += f" {1 / t3:7.2f} fps ({t3 * 1e3:6.0f} ms)"
-        print(line)
-    print("targets: superpixel and bilinear >= 20 fps, newton >= 2 fps (decode + S0, S1, S2)")
+        say(line)
+    say("targets: superpixel and bilinear >= 20 fps, newton >= 2 fps (decode + S0, S1, S2)")
+    if args.write:
+        import re
+
+        path = os.path.join(os.path.dirname(__file__), "..", "docs", "mosaic.md")
+        text = open(path, encoding="utf-8").read()
+        block = "```\n" + "\n".join(lines) + "\n```\n"
+        text = re.sub(r"(<!-- speed-table:start -->\n).*?(<!-- speed-table:end -->)",
+                      lambda m: m.group(1) + block + m.group(2), text, flags=re.S)
+        with open(path, "w", encoding="utf-8") as f:
+            f.write(text)
 
 
 if __name__ == "__main__":

@@ -10,7 +10,7 @@ import pytest
 
 from cli.main import main
 from polarsky.dataset import open_stokes
-from polarsky.mosaic.synthetic import mosaic_sample, scene_edges, scene_uniform, write_mosaic_png
+from polarsky.mosaic.synthetic import mosaic_sample, scene_uniform, write_mosaic_png
 
 ROOT = Path(__file__).resolve().parents[1]
 H, W = 48, 64
@@ -47,12 +47,6 @@ def test_stokes_mosaic_subprocess_text(tmp_path, frame):
     assert "mosaic layout" in r.stdout and "32x24" in r.stdout
 
 
-def test_bracket_path_untouched(tmp_path, png_bracket):
-    paths, _ = png_bracket
-    assert main(["stokes", *map(str, paths), "--out", str(tmp_path / "b")]) == 0
-    assert "mosaic" not in json.loads((tmp_path / "b" / "summary.json").read_text())
-
-
 @pytest.mark.parametrize("args, match", [
     (["--mosaic", "90,45;135,45"], "error: mosaic '90,45;135,45' does not hold four distinct orientations"),
     (["--mosaic", "90,45,135,0"], "error: mosaic '90,45,135,0' is not a 2x2 cell"),
@@ -76,13 +70,3 @@ def test_frame_not_multiple_of_cell_cli(tmp_path, capsys):
     rc = main(["stokes", str(p), "--mosaic", LAY, "--mosaic-colour", "GBRG", "--out", str(tmp_path / "o")])
     assert rc == 2
     assert "62x48 pixels, not a multiple of the 4x4 colour mosaic" in capsys.readouterr().err
-
-
-def test_colour_mosaic_cli(tmp_path, capsys):
-    from polarsky.mosaic.layout import parse_mosaic
-
-    s = np.stack([scene_edges(H, W) * f for f in (0.5, 1.0, 0.8)])
-    p = write_mosaic_png(tmp_path / "c.png", mosaic_sample(s, parse_mosaic(LAY, "BGGR")))
-    rc = main(["stokes", str(p), "--mosaic", LAY, "--mosaic-colour", "bggr", "--out", str(tmp_path / "o"), "--json"])
-    assert rc == 0
-    assert json.loads(capsys.readouterr().out)["channels"] == ["R", "G", "B"]

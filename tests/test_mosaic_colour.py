@@ -62,3 +62,13 @@ def test_colour_edge_keeps_colours_apart():
     ds = stokes_from_mosaic_values(raw, mosaic=LAY, mosaic_colour="RGGB", demosaic="bilinear")
     np.testing.assert_allclose(ds.S0.values[:, 20, 8], s[:, 0, 20, 8], rtol=1e-5)
     np.testing.assert_allclose(ds.S0.values[:, 20, W - 8], s[:, 0, 20, W - 8], rtol=1e-5)
+
+
+def test_colour_mosaic_from_file(tmp_path):
+    from polarsky.mosaic import stokes_from_mosaic_files
+    from polarsky.mosaic.synthetic import write_mosaic_png
+
+    p = write_mosaic_png(tmp_path / "c.png", mosaic_sample(_colour_scene(), parse_mosaic(LAY, "BGGR")))
+    ds = stokes_from_mosaic_files([p], mosaic=LAY, mosaic_colour="bggr", demosaic="newton")
+    assert list(ds.channel.values) == ["R", "G", "B"] and ds.attrs["mosaic_colour"] == "BGGR"
+    np.testing.assert_allclose(ds.dolp.values[:, 5, 5], [0.2, 0.4, 0.6], atol=2e-3)

@@ -11,7 +11,7 @@ import pytest
 from cli.main import main
 from polarsky.calibration import Calibration, read_calibration, write_calibration
 from polarsky.errors import InputError
-from polarsky.mosaic import stokes_from_mosaic_values
+from polarsky.mosaic import stokes_from_mosaic_files, stokes_from_mosaic_values
 from polarsky.mosaic.flatcal import fit_flat, flat_calibration, flat_summary
 from polarsky.mosaic.layout import parse_mosaic
 from polarsky.mosaic.synthetic import bench_frames, mosaic_sample, scene_gradient, write_mosaic_png
@@ -198,10 +198,9 @@ def test_cli_calibrate_flat_subprocess_and_stokes_with_it(tmp_path):
     assert r.returncode == 0, r.stderr
     assert "dead pixels 0" in r.stdout and "wrote" in r.stdout
     scene = write_mosaic_png(tmp_path / "scene.png", mosaic_sample(scene_gradient(H, W), LAY, angle_deg=angle))
-    rc = main(["stokes", str(scene), "--mosaic", LAY.text, "--calibration", str(out), "--out", str(tmp_path / "o")])
-    assert rc == 0
-    s = json.loads((tmp_path / "o" / "summary.json").read_text())
-    assert s["calibration_per_pixel"] is True and s["calibration"]["kind"] == "flat"
+    ds = stokes_from_mosaic_files([scene], mosaic=LAY.text, calibration=out)
+    assert ds.attrs["calibration_per_pixel"] == 1
+    assert json.loads(ds.attrs["calibration"])["kind"] == "flat"
 
 
 def test_cli_too_few_angles_exit_2(tmp_path, capsys):
