@@ -72,7 +72,7 @@ def mosaic_dataset_from_options(frames, options, *, calibration=None, transfer="
         extra = [f"--{k.replace('_', '-')}" for k in ("mosaic_colour", "bit_depth", "black_level")
                  if options.get(k) is not None]
         if extra:
-            raise InputError(f"{', '.join(extra)} only apply to mosaic frames; add --mosaic CELL (e.g. \"90,45;135,0\") "
+            raise InputError(f"{', '.join(extra)} apply only to mosaic frames; add --mosaic CELL (e.g. \"90,45;135,0\") "
                              "or drop them")
         return None
     _check_bracket_only(bracket_values)

@@ -50,9 +50,9 @@ def test_stokes_mosaic_subprocess_text(tmp_path, frame):
 @pytest.mark.parametrize("args, match", [
     (["--mosaic", "90,45;135,45"], "error: mosaic '90,45;135,45' does not hold four distinct orientations"),
     (["--mosaic", "90,45,135,0"], "error: mosaic '90,45,135,0' is not a 2x2 cell"),
-    (["--mosaic-colour", "RGGB"], "error: --mosaic-colour only apply to mosaic frames; add --mosaic"),
+    (["--mosaic-colour", "RGGB"], "error: --mosaic-colour apply only to mosaic frames; add --mosaic"),
     (["--mosaic", LAY, "--angles", "0,45,90,135"], "error: --angles describes a bracket of frames"),
-    (["--mosaic", LAY, "--mosaic-colour", "RGGB", "--demosaic", "bilinear", "--black-level", "99999"],
+    (["--mosaic", LAY, "--mosaic-colour", "RGGB", "--bit-depth", "12", "--black-level", "99999"],
      "error: black level 99999 is outside"),
     (["--mosaic", LAY, "--demosaic", "cubic"], "error: Invalid value for '--demosaic'"),
 ])
@@ -70,3 +70,13 @@ def test_frame_not_multiple_of_cell_cli(tmp_path, capsys):
     rc = main(["stokes", str(p), "--mosaic", LAY, "--mosaic-colour", "GBRG", "--out", str(tmp_path / "o")])
     assert rc == 2
     assert "62x48 pixels, not a multiple of the 4x4 colour mosaic" in capsys.readouterr().err
+
+
+def test_option_helpers(frame):
+    from cli.mosaic_options import mosaic_dataset_from_options
+
+    assert mosaic_dataset_from_options([frame], {"mosaic": None}) is None
+    ds = mosaic_dataset_from_options([frame], {"mosaic": LAY, "demosaic": "superpixel", "bit_depth": "16"})
+    assert ds.attrs["demosaic"] == "superpixel" and ds.sizes["x"] == W // 2
+    with pytest.raises(Exception, match="--bit-depth apply only to mosaic frames"):
+        mosaic_dataset_from_options([frame], {"mosaic": None, "bit_depth": "12"})

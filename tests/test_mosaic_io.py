@@ -51,7 +51,8 @@ def test_12bit_in_16bit_container(tmp_path):
     assert info["white_level"] == 4095
     np.testing.assert_allclose(v, raw, atol=1 / 4095)
     # without --bit-depth the scale is the container's, Stokes ratios unchanged
-    v16, _, _ = read_mosaic_frame(p)
+    with pytest.warns(PolarskyWarning, match=r"only up to \d+: if the sensor delivers 12-bit data, give --bit-depth 12"):
+        v16, _, _ = read_mosaic_frame(p)
     np.testing.assert_allclose(v16 * 65535 / 4095, v, rtol=1e-5)
 
 

@@ -184,7 +184,7 @@ def _decode_mono(values, invalid, layout, method, rows=None):
         if m.scale == 2:
             prow = np.stack([rows[:, ty::2, tx::2] for ty in (0, 1) for tx in (0, 1)])
         else:
-            prow = interpolate_bilinear_stack(rows, range(4))
+            prow = interpolate_bilinear_stack(rows)
     return inten, inv, prow
 
 

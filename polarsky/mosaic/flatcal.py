@@ -183,7 +183,8 @@ def fit_flat_files(frames, angles_deg, *, mosaic, mosaic_colour=None, dark=(), b
     _check_bench_angles(angles_deg, len(frames))
     dark_mean = None
     for i, d in enumerate(dark or ()):
-        v, _, _ = read_mosaic_frame(d, bit_depth=bit_depth, black_level=black_level, transfer=transfer)
+        v, _, _ = read_mosaic_frame(d, bit_depth=bit_depth, black_level=black_level, transfer=transfer,
+                                    hint_bit_depth=False)
         dark_mean = v.astype(np.float64) if dark_mean is None else dark_mean + v
     if dark_mean is not None:
         dark_mean /= len(dark)
@@ -214,7 +215,6 @@ class _LazyFrames:
 
     def __init__(self, gen, n):
         self._gen, self._n = gen, n
-        self._first = None
 
     def __len__(self):
         return self._n

@@ -106,7 +106,7 @@ def _read_counts(path: Path):
     return counts, None, None, "image"
 
 
-def read_mosaic_frame(path, *, bit_depth=None, black_level=None, transfer="auto"):
+def read_mosaic_frame(path, *, bit_depth=None, black_level=None, transfer="auto", hint_bit_depth=True):
     """Read one mosaic frame as linear values in [0, 1] of full scale.
 
     Parameters
@@ -121,6 +121,9 @@ def read_mosaic_frame(path, *, bit_depth=None, black_level=None, transfer="auto"
         Black level in sensor counts; default 0 (DNG: the file's per-channel levels).
     transfer : {"auto", "linear", "srgb"}
         ``auto``: 8-bit files are sRGB-encoded, deeper data linear.
+    hint_bit_depth : bool
+        Warn when 16-bit data never exceed 12 bits and no ``bit_depth`` was given (off for
+        dark frames).
 
     Returns
     -------
@@ -159,6 +162,11 @@ def read_mosaic_frame(path, *, bit_depth=None, black_level=None, transfer="auto"
     elif white is None:
         bd = container
         white = float(2 ** container - 1)
+        vmax = int(counts.max())
+        if hint_bit_depth and container == 16 and 0 < vmax < 4096:
+            hint = 10 if vmax < 1024 else 12
+            warnings.warn(f"{path.name} holds 16-bit values only up to {vmax}: if the sensor delivers {hint}-bit data, "
+                          f"give --bit-depth {hint} so that saturated pixels are detected", PolarskyWarning, stacklevel=3)
     else:
         bd = int(np.ceil(np.log2(white + 1)))
     if black_level is not None:

@@ -125,7 +125,7 @@ def demosaic_bilinear(raw):
     return out
 
 
-def interpolate_bilinear_stack(planes, positions):
+def interpolate_bilinear_stack(planes):
     """Bilinearly interpolate quantities sampled on the mosaic lattices (rows, gains, ...).
 
     Parameters
