@@ -166,3 +166,19 @@ def test_sky_offsets_per_position_are_applied(layout):
         np.testing.assert_allclose(ds.S1.values, s[1, 0, 0], atol=1e-5)
         err = np.hypot(plain.S1.values - s[1, 0, 0], plain.S2.values - s[2, 0, 0]).max()
         assert err > 0.005  # uncorrected: clearly off (calibrated: < 1e-5)
+
+
+@pytest.mark.parametrize("method", list(DEMOSAIC_METHODS))
+@pytest.mark.parametrize("layout", ["90,45;135,0", "10,50;100,150"])
+def test_fast_paths_equal_fit_of_decoded_channels(method, layout):
+    from polarsky.mosaic.decode import fast_stokes, fast_stokes_maps, position_matrix
+
+    lay = parse_mosaic(layout)
+    raw = mosaic_sample(scene_edges(H, W), lay)
+    w = position_matrix(lay)
+    ref = fit_stokes(demosaic(raw, method), w)
+    np.testing.assert_allclose(fast_stokes(raw, w, method), ref, atol=1e-6)
+    s, d, a = fast_stokes_maps(raw, w, method)
+    d_ref, a_ref = dolp_aolp(ref)
+    np.testing.assert_allclose(d, d_ref, atol=1e-5)
+    np.testing.assert_allclose((a - a_ref + 90) % 180 - 90, 0, atol=1e-3)

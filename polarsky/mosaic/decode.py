@@ -28,18 +28,16 @@ per-pixel analysis rows when a flat calibration is used.
 
 from __future__ import annotations
 
-import functools
-
 import cv2
 import numpy as np
 
 from ..errors import InputError
 from ..stokes import analysis_matrix
-from .methods import _BORDER, _TENT, BILINEAR_KERNEL, interpolate_bilinear_stack, invalid_after, validate_method
+from .methods import _BORDER, BILINEAR_KERNEL, interpolate_bilinear_stack, invalid_after, validate_method
 from .layout import MosaicLayout, bayer_cell_colours
 
 __all__ = ["decode_mosaic", "per_pixel_solve", "position_matrix", "check_calibration", "bayer_bilinear",
-           "fast_stokes"]
+           "fast_stokes", "fast_stokes_maps"]
 
 _KG = np.array([[0, 1, 0], [1, 4, 1], [0, 1, 0]], dtype=np.float32) / 4.0
 
@@ -332,19 +330,13 @@ def decode_mosaic(values, invalid, layout: MosaicLayout, method="bilinear", cali
     }
 
 
-@functools.lru_cache(maxsize=4)
-def _periodic(cell, h, w):
-    """The 2x2-periodic (h, w) float32 image of ``cell`` (cached: reused frame after frame)."""
-    return np.tile(np.asarray(cell, dtype=np.float32).reshape(2, 2), (h // 2, w // 2))
-
-
 def fast_stokes(values, w, method="bilinear"):
     """S0, S1, S2 of a mono mosaic with one analysis matrix for the four positions (fast path).
 
     Gives the same result as fitting the decoded channels (``fit_stokes(demosaic(values), w)``)
-    without forming the four full-resolution channels: for ``bilinear`` the fit is linear and
-    commutes with the interpolation, so ``S_k = K * (M . c_k)`` with ``c_k`` the 2x2-periodic
-    pattern of the solve matrix and ``K`` the bilinear kernel (three separable filters).
+    without forming the four full-resolution channels: ``superpixel`` and ``bilinear`` run as
+    fused compiled passes (:mod:`polarsky.mosaic._kernels`), ``newton`` fits each row strip
+    as soon as it is decoded.
 
     Parameters
     ----------
@@ -358,6 +350,7 @@ def fast_stokes(values, w, method="bilinear"):
     ndarray, shape (3, H', W'), float32
     """
     from ..stokes import solve_matrix
+    from ._kernels import bilinear_stokes, superpixel_stokes
     from .methods import newton_stokes_li2019
 
     m = validate_method(method)
@@ -365,22 +358,37 @@ def fast_stokes(values, w, method="bilinear"):
     pm = solve_matrix(w).astype(np.float32)  # (3, 4)
     h, wd = a.shape
     if m.name == "superpixel":
-        # the four lattices as rows of one contiguous (4, N) array, then one (3, 4) @ (4, N) product
-        q = np.ascontiguousarray(a.reshape(h // 2, 2, wd // 2, 2).transpose(1, 3, 0, 2)).reshape(4, -1)
-        return (pm @ q).reshape(3, h // 2, wd // 2)
+        out = np.empty((3, h // 2, wd // 2), np.float32)
+        superpixel_stokes(a, pm, out)
+        return out
     if m.name == "bilinear":
         out = np.empty((3, h, wd), np.float32)
-        tmp = np.empty_like(a)
-        for k in range(3):
-            cell = pm[k].reshape(2, 2)
-            if np.all(cell == cell[0, 0]):  # constant weight: folded into the kernel
-                cv2.sepFilter2D(a, -1, _TENT * cell[0, 0], _TENT, dst=out[k], borderType=_BORDER)
-            else:
-                cv2.multiply(a, _periodic(tuple(cell.ravel().tolist()), h, wd), dst=tmp)
-                cv2.sepFilter2D(tmp, -1, _TENT, _TENT, dst=out[k], borderType=_BORDER)
+        bilinear_stokes(a, pm, out)
         return out
     if m.name == "newton":
         return newton_stokes_li2019(a, pm)
     from ..stokes import fit_stokes
 
     return fit_stokes(m.function(a), w)
+
+
+def fast_stokes_maps(values, w, method="bilinear"):
+    """S0, S1, S2, DoLP and AoLP of a mono mosaic (fast path: :func:`fast_stokes` followed by
+    the core's fused DoLP/AoLP kernel).
+
+    Returns
+    -------
+    s : ndarray (3, H', W') float32
+    dolp : ndarray (H', W') float32
+    aolp_deg : ndarray (H', W') float32, degrees in [0, 180)
+    """
+    from .._kernels import stokes_maps
+
+    s = fast_stokes(values, w, method)
+    shape = s.shape[1:]
+    flat = s.reshape(3, -1)
+    out = np.empty_like(flat)
+    dolp = np.empty(flat.shape[1], np.float32)
+    aolp = np.empty(flat.shape[1], np.float32)
+    stokes_maps(flat, np.eye(3, dtype=np.float32), out, dolp, aolp)
+    return out.reshape(s.shape), dolp.reshape(shape), aolp.reshape(shape)
