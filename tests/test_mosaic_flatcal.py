@@ -209,3 +209,14 @@ def test_cli_too_few_angles_exit_2(tmp_path, capsys):
     err = capsys.readouterr().err
     assert rc == 2 and err.startswith("error: only 2 distinct") and err.count("\n") == 1
     assert not (tmp_path / "c.nc").exists()
+
+
+def test_cli_calibration_for_another_layout_exit_2(tmp_path, capsys):
+    fit, _ = _fit(noise=0.0)
+    cal = write_calibration(tmp_path / "cal.nc", flat_calibration(fit))
+    frame = write_mosaic_png(tmp_path / "f.png", np.full((H, W), 0.3))
+    rc = main(["stokes", str(frame), "--mosaic", "45,90;0,135", "--calibration", str(cal), "--out", str(tmp_path / "o")])
+    err = capsys.readouterr().err
+    assert rc == 2 and err.count("\n") == 1
+    assert "was made for mosaic 90,45;135,0 but --mosaic is 45,90;0,135" in err
+    assert not (tmp_path / "o" / "stokes.nc").exists()
