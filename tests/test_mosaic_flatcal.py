@@ -108,19 +108,20 @@ def test_calibrated_aolp_errors_fall_to_noise_level():
         assert fitted < 1.25 * ideal, (method, fitted, ideal)
 
 
-def test_calibrated_superpixel_exact_without_noise():
+@pytest.mark.parametrize("method", ["superpixel", "bilinear", "newton"])
+def test_calibrated_exact_without_noise(method):
     fit, (angle, er, dia, gain) = _fit(noise=0.0)
     cal = flat_calibration(fit)
     s = np.stack([np.full((H, W), 0.5), np.full((H, W), 0.12), np.full((H, W), -0.2)])
     raw = mosaic_sample(s, LAY, angle_deg=angle, diattenuation=dia, gain=gain / np.median(gain), dtype=np.float64)
-    ds = stokes_from_mosaic_values(raw, mosaic=LAY.text, demosaic="superpixel", calibration=cal)
+    ds = stokes_from_mosaic_values(raw, mosaic=LAY.text, demosaic=method, calibration=cal)
     # REFERENCES.md 8.2 test implication: calibrated reconstruction returns DoLP/AoLP to
     # < 1e-3 / < 0.1 deg on noise-free data, and the uncalibrated one does not
     dolp_true = np.hypot(0.12, 0.2) / 0.5
     aolp_true = np.degrees(0.5 * np.arctan2(-0.2, 0.12)) % 180
     assert np.abs(ds.dolp.values - dolp_true).max() < 1e-3
     assert np.abs(ds.aolp.values - aolp_true).max() < 0.1
-    plain = stokes_from_mosaic_values(raw, mosaic=LAY.text, demosaic="superpixel")
+    plain = stokes_from_mosaic_values(raw, mosaic=LAY.text, demosaic=method)
     assert np.abs(plain.aolp.values - aolp_true).max() > 0.5
     assert ds.attrs["calibration_per_pixel"] == 1
 

@@ -12,10 +12,12 @@ Calibration, decided here:
 * a flat (bench) calibration gives every pixel its own gain ``t``, diattenuation ``D`` and
   angle ``phi``.  The raw values are first divided by ``t`` (flat field).  For
   ``superpixel`` each cell's four pixels keep their own rows ``1/2 [1, D cos 2phi,
-  D sin 2phi]``.  For the interpolating methods the rows are interpolated with the same
-  linear (bilinear) weights as the intensities: for locally uniform light this is exact
-  (``sum a_j I_j = (sum a_j w_j) . S``), and it keeps every pixel's own analysis vector in the
-  estimate.  Each output pixel then gets its own least-squares solve matrix.
+  D sin 2phi]``.  For ``bilinear`` the rows are interpolated with the same linear weights as
+  the intensities: for locally uniform light this is exact (``sum a_j I_j = (sum a_j w_j) .
+  S``), and it keeps every pixel's own analysis vector in the estimate.  Each output pixel
+  then gets its own least-squares solve matrix.  The non-linear ``newton`` first brings each
+  pixel to its nominal analyzer using the calibrated bilinear Stokes estimate (see
+  :func:`_decode_mono`).
   Pixels flagged defective (dead or hot) are replaced by the mean of their four nearest
   neighbours of the same orientation before decoding.
 
@@ -32,7 +34,7 @@ import cv2
 import numpy as np
 
 from ..errors import InputError
-from ..stokes import analysis_matrix
+from ..stokes import analysis_matrix, fit_stokes_per_pixel
 from .methods import _BORDER, BILINEAR_KERNEL, interpolate_bilinear_stack, invalid_after, validate_method
 from .layout import MosaicLayout, bayer_cell_colours
 
@@ -173,11 +175,30 @@ def _flat_arrays(cal, layout, extra_offsets):
     return gain, rows, defect
 
 
-def _decode_mono(values, invalid, layout, method, rows=None):
-    """Mono decode: returns (intensities (4, h, w), invalid (h, w), rows (4, 3, h, w) or None)."""
+def _decode_mono(values, invalid, layout, method, rows=None, nominal=None):
+    """Mono decode: returns (intensities (4, h, w), invalid (h, w), rows (4, 3, h, w) or None).
+
+    With per-pixel ``rows`` (3, H, W), the linear methods interpolate the rows with the
+    intensities' weights.  The non-linear ``newton`` first brings every pixel to its nominal
+    analyzer ``nominal`` (4, 3): ``M' = M + (w_nominal - w_pixel) . S_b``, with ``S_b`` the
+    calibrated bilinear Stokes estimate at the pixel, then decodes ``M'`` with the nominal rows
+    (exact for locally uniform light; at edges the error is the product of the small analyzer
+    deviation and the bilinear error).
+    """
     m = validate_method(method)
-    inten = m.function(values)
     inv = invalid_after(m, invalid)
+    if rows is not None and m.scale == 1 and m.name != "bilinear":
+        h, w = values.shape
+        lin = validate_method("bilinear").function(values)
+        s_b = fit_stokes_per_pixel(lin, per_pixel_solve(interpolate_bilinear_stack(rows)))
+        nom = np.empty_like(rows)
+        for t in range(4):
+            nom[:, t // 2::2, t % 2::2] = np.asarray(nominal[t], np.float32)[:, None, None]
+        corrected = values + np.einsum("j...,j...->...", nom - rows, s_b).astype(np.float32)
+        inten = m.function(corrected)
+        prow = np.broadcast_to(np.asarray(nominal, np.float32)[:, :, None, None], (4, 3, h, w))
+        return inten, inv, prow
+    inten = m.function(values)
     prow = None
     if rows is not None:
         if m.scale == 2:
@@ -222,7 +243,7 @@ def bayer_bilinear(planes, order, colour_index):
     return out
 
 
-def _decode_colour(values, invalid, layout, method, rows=None):
+def _decode_colour(values, invalid, layout, method, rows=None, nominal=None):
     m = validate_method(method)
     h, w = values.shape
     hc, wc = h // 2, w // 2  # grid of cells
@@ -244,7 +265,7 @@ def _decode_colour(values, invalid, layout, method, rows=None):
             prow = None
             if rows is not None:
                 prow = cells(rows)[:, cy::2, :, cx::2, :].reshape(3, hc, wc)
-            inten, inv, irow = _decode_mono(pv, pinv, layout, method, prow)
+            inten, inv, irow = _decode_mono(pv, pinv, layout, method, prow, nominal)
             if scale == 2:  # one value per cell: packed (4, hc/2, wc/2) -> cells (cy::2, cx::2)
                 own[:, cy::2, cx::2] = inten
                 own_inv[cy::2, cx::2] = inv
@@ -310,13 +331,16 @@ def decode_mosaic(values, invalid, layout: MosaicLayout, method="bilinear", cali
             off = [calibration.channel_params(0, k)[0] for k in range(4)]
         gain, rows, defect = _flat_arrays(calibration, layout, off)
         values = _repair_defects(values / gain, defect)
+        nominal = analysis_matrix(np.asarray(layout.angles_deg) + (0.0 if off is None else np.asarray(off)))
+    else:
+        nominal = None
     if layout.colour is None:
-        inten, inv, prow = _decode_mono(values, invalid, layout, method, rows)
+        inten, inv, prow = _decode_mono(values, invalid, layout, method, rows, nominal)
         inten = inten[:, None]
         valid = (~inv)[None]
         prow = None if prow is None else prow[None]
     else:
-        inten, valid, prow = _decode_colour(values, invalid, layout, method, rows)
+        inten, valid, prow = _decode_colour(values, invalid, layout, method, rows, nominal)
     solve = None
     if prow is not None:
         solve = np.stack([per_pixel_solve(prow[c]) for c in range(prow.shape[0])])
