@@ -221,3 +221,22 @@ def test_cli_calibration_for_another_layout_exit_2(tmp_path, capsys):
     assert rc == 2 and err.count("\n") == 1
     assert "was made for mosaic 90,45;135,0 but --mosaic is 45,90;0,135" in err
     assert not (tmp_path / "o" / "stokes.nc").exists()
+
+
+@pytest.mark.parametrize("method", ["superpixel", "bilinear", "newton"])
+@pytest.mark.parametrize("colour", [None, "GRBG"])
+def test_row_blocks_equal_whole_frame(method, colour):
+    from polarsky.mosaic.pipeline import _decoded
+    from polarsky.mosaic.synthetic import scene_edges
+
+    fit, (angle, er, dia, gain) = _fit(noise=0.0)
+    cal = flat_calibration(fit, {})
+    cal.attrs["mosaic_colour"] = colour or ""
+    lay = parse_mosaic(LAY.text, colour)
+    scene = scene_edges(H, W) if colour is None else np.stack([scene_edges(H, W) * f for f in (0.5, 1, 0.8)])
+    raw = mosaic_sample(scene, lay, angle_deg=angle, diattenuation=dia, gain=gain, dtype=np.float32)
+    noisy = _scene_noise(raw, 0.002, 3)
+    whole, _, _ = _decoded(noisy, None, mosaic=lay, demosaic=method, calibration=cal, block_rows=1 << 20)
+    blocks, _, _ = _decoded(noisy, None, mosaic=lay, demosaic=method, calibration=cal, block_rows=16)
+    for name in whole:
+        np.testing.assert_allclose(blocks[name], whole[name], rtol=1e-5, atol=1e-6, equal_nan=True, err_msg=name)

@@ -175,7 +175,7 @@ def _flat_arrays(cal, layout, extra_offsets):
     return gain, rows, defect
 
 
-def _decode_mono(values, invalid, layout, method, rows=None, nominal=None):
+def _decode_mono(values, invalid, layout, method, rows=None, nominal=None, options=None):
     """Mono decode: returns (intensities (4, h, w), invalid (h, w), rows (4, 3, h, w) or None).
 
     With per-pixel ``rows`` (3, H, W), the linear methods interpolate the rows with the
@@ -195,10 +195,10 @@ def _decode_mono(values, invalid, layout, method, rows=None, nominal=None):
         for t in range(4):
             nom[:, t // 2::2, t % 2::2] = np.asarray(nominal[t], np.float32)[:, None, None]
         corrected = values + np.einsum("j...,j...->...", nom - rows, s_b).astype(np.float32)
-        inten = m.function(corrected)
+        inten = m.function(corrected, **(options or {}))
         prow = np.broadcast_to(np.asarray(nominal, np.float32)[:, :, None, None], (4, 3, h, w))
         return inten, inv, prow
-    inten = m.function(values)
+    inten = m.function(values, **(options or {}))
     prow = None
     if rows is not None:
         if m.scale == 2:
@@ -243,7 +243,7 @@ def bayer_bilinear(planes, order, colour_index):
     return out
 
 
-def _decode_colour(values, invalid, layout, method, rows=None, nominal=None):
+def _decode_colour(values, invalid, layout, method, rows=None, nominal=None, options=None):
     m = validate_method(method)
     h, w = values.shape
     hc, wc = h // 2, w // 2  # grid of cells
@@ -265,7 +265,7 @@ def _decode_colour(values, invalid, layout, method, rows=None, nominal=None):
             prow = None
             if rows is not None:
                 prow = cells(rows)[:, cy::2, :, cx::2, :].reshape(3, hc, wc)
-            inten, inv, irow = _decode_mono(pv, pinv, layout, method, prow, nominal)
+            inten, inv, irow = _decode_mono(pv, pinv, layout, method, prow, nominal, options)
             if scale == 2:  # one value per cell: packed (4, hc/2, wc/2) -> cells (cy::2, cx::2)
                 own[:, cy::2, cx::2] = inten
                 own_inv[cy::2, cx::2] = inv
@@ -298,7 +298,7 @@ def _decode_colour(values, invalid, layout, method, rows=None, nominal=None):
     return inten, np.broadcast_to(valid, (3, oh, ow)).copy(), out_rows
 
 
-def decode_mosaic(values, invalid, layout: MosaicLayout, method="bilinear", calibration=None):
+def decode_mosaic(values, invalid, layout: MosaicLayout, method="bilinear", calibration=None, *, scale=None):
     """Decode linear mosaic values into the inputs of the Stokes estimate.
 
     Parameters
@@ -312,6 +312,9 @@ def decode_mosaic(values, invalid, layout: MosaicLayout, method="bilinear", cali
         Registry key of :data:`polarsky.mosaic.methods.DEMOSAIC_METHODS`.
     calibration : polarsky.calibration.Calibration, optional
         Sky (per-position offsets) and/or flat (per-pixel) calibration.
+    scale : float, optional
+        Mean level of the whole frame, when ``values`` is a piece of it (keeps the Newton
+        method's regularisation the same in every piece).
 
     Returns
     -------
@@ -334,13 +337,17 @@ def decode_mosaic(values, invalid, layout: MosaicLayout, method="bilinear", cali
         nominal = analysis_matrix(np.asarray(layout.angles_deg) + (0.0 if off is None else np.asarray(off)))
     else:
         nominal = None
+    options = None
+    if validate_method(method).name == "newton":
+        level = float(np.mean(np.abs(values))) if scale is None else float(scale)
+        options = {"eps": 1e-3 * max(level, 1e-12)}
     if layout.colour is None:
-        inten, inv, prow = _decode_mono(values, invalid, layout, method, rows, nominal)
+        inten, inv, prow = _decode_mono(values, invalid, layout, method, rows, nominal, options)
         inten = inten[:, None]
         valid = (~inv)[None]
         prow = None if prow is None else prow[None]
     else:
-        inten, valid, prow = _decode_colour(values, invalid, layout, method, rows, nominal)
+        inten, valid, prow = _decode_colour(values, invalid, layout, method, rows, nominal, options)
     solve = None
     if prow is not None:
         solve = np.stack([per_pixel_solve(prow[c]) for c in range(prow.shape[0])])

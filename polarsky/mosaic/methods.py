@@ -167,7 +167,7 @@ def interleave(planes, out=None):
     return out
 
 
-def demosaic_newton_li2019(raw, *, eps_rel=1e-3):
+def demosaic_newton_li2019(raw, *, eps_rel=1e-3, eps=None):
     """Edge-directed Newton-polynomial demosaicing guided by polarization differences.
 
     The method follows the three ideas of Li et al. (2019): (i) each missing orientation is
@@ -200,6 +200,9 @@ def demosaic_newton_li2019(raw, *, eps_rel=1e-3):
         Mosaic frame, H and W even.
     eps_rel : float
         Regularisation of the fusion weights, relative to the mean level of the frame.
+    eps : float, optional
+        Absolute regularisation (overrides ``eps_rel``; used when a frame is processed in
+        pieces, so that every piece uses the same value).
 
     Returns
     -------
@@ -221,11 +224,11 @@ def demosaic_newton_li2019(raw, *, eps_rel=1e-3):
         for p in range(4):
             out[p, r0:r1] = interleave(planes[p])[r0 - s0:r1 - s0]
 
-    _newton_strips(a, eps_rel, emit)
+    _newton_strips(a, eps_rel, emit, eps)
     return out
 
 
-def newton_stokes_li2019(raw, solve, *, eps_rel=1e-3):
+def newton_stokes_li2019(raw, solve, *, eps_rel=1e-3, eps=None):
     """Stokes maps straight from :func:`demosaic_newton_li2019` strips (fast path).
 
     Parameters
@@ -253,15 +256,16 @@ def newton_stokes_li2019(raw, solve, *, eps_rel=1e-3):
                 st.append(acc)
             out[k, r0:r1] = interleave(st)[r0 - s0:r1 - s0]
 
-    _newton_strips(a, eps_rel, emit)
+    _newton_strips(a, eps_rel, emit, eps)
     return out
 
 
-def _newton_strips(a, eps_rel, emit):
+def _newton_strips(a, eps_rel, emit, eps=None):
     """Run the Newton method on overlapping row strips (cache-friendly, on all cores); the
     result is identical to processing the whole frame at once."""
     h = a.shape[0]
-    eps = eps_rel * max(float(np.mean(np.abs(a))), 1e-12)
+    if eps is None:
+        eps = eps_rel * max(float(np.mean(np.abs(a))), 1e-12)
     step = _NEWTON_STRIP
     starts = list(range(0, h, step))
 

@@ -13,9 +13,6 @@ from .layout import check_frame_shape, parse_mosaic
 __all__ = ["stokes_from_mosaic_files", "stokes_from_mosaic_values", "run_mosaic_stokes"]
 
 
-
-
-
 def _load_calibration(calibration):
     if calibration is None:
         return None
@@ -24,19 +21,57 @@ def _load_calibration(calibration):
     return calibration if isinstance(calibration, Calibration) else read_calibration(calibration)
 
 
-def _decoded(values, invalid, *, mosaic, mosaic_colour=None, demosaic="bilinear", calibration=None,
-             full_scale=65535.0, srgb=False, noise=None):
-    """Decode and estimate: returns (products, channels, attrs dict)."""
-    from ..pipeline import estimate_block
+#: Sensor values per row block of the estimate (bounds memory, as in the bracket pipeline).
+BLOCK_VALUES = 1 << 21
 
-    layout = parse_mosaic(mosaic, mosaic_colour)
-    method = validate_method(demosaic)
+
+def _margin(layout) -> int:
+    """Rows of overlap a block needs so that its interior equals whole-frame processing:
+    the Newton method looks 6 px away (7 with a flat calibration's bilinear pre-correction),
+    the residual-based noise estimate is smoothed over 5x5 pixels; on colour sensors the 7 px
+    are in the packed polarization mosaic (14 sensor rows), plus one cell of colour
+    interpolation."""
+    return 12 if layout.colour is None else 24
+
+
+def _window_calibration(cal, s0, s1):
+    if cal is None or not cal.pixel:
+        return cal
+    import dataclasses
+
+    pixel = {k: np.asarray(v)[:, s0:s1] for k, v in cal.pixel.items()}
+    shape = [s1 - s0, int(np.asarray(cal.pixel["pixel_gain"]).shape[-1])]
+    return dataclasses.replace(cal, pixel=pixel, attrs={**cal.attrs, "sensor_shape": shape})
+
+
+def _estimate_blocks(values, invalid, layout, method, cal, *, full_scale=65535.0, srgb=False, noise=None,
+                     block_rows=None):
+    """Decode and estimate in row blocks; yields ``(o0, o1, products, decoded)`` where
+    ``o0:o1`` are rows of the output grid and ``products`` the estimate of those rows."""
+    from ..pipeline import estimate_block
+    from .decode import check_calibration
+
     values = np.asarray(values, dtype=np.float32)
-    check_frame_shape(values.shape, layout)
-    cal = _load_calibration(calibration)
-    dec = decode_mosaic(values, invalid, layout, method.name, cal)
-    products = estimate_block(dec["intensities"], dec["valid"], dec["w"], solve=dec["solve"], noise=noise,
-                              full_scale=float(full_scale), srgb=bool(srgb))
+    invalid = np.zeros(values.shape, bool) if invalid is None else np.asarray(invalid, bool)
+    if cal is not None and cal.pixel:
+        check_calibration(cal, layout, values.shape)
+    h, w = values.shape
+    rows = block_rows or max(16, (BLOCK_VALUES // max(w, 1)) // 4 * 4)
+    margin = _margin(layout)
+    k = method.scale
+    level = float(np.mean(np.abs(values)))
+    for r0 in range(0, h, rows):
+        r1 = min(h, r0 + rows)
+        s0, s1 = max(0, r0 - margin), min(h, r1 + margin)
+        dec = decode_mosaic(values[s0:s1], invalid[s0:s1], layout, method.name, _window_calibration(cal, s0, s1),
+                            scale=level)
+        products = estimate_block(dec["intensities"], dec["valid"], dec["w"], solve=dec["solve"], noise=noise,
+                                  full_scale=float(full_scale), srgb=bool(srgb))
+        a, b = (r0 - s0) // k, (r1 - s0) // k
+        yield r0 // k, r1 // k, {n: arr[:, a:b] for n, arr in products.items()}, dec
+
+
+def _attrs(layout, method, cal, dec) -> dict:
     cal_attr = "none"
     if cal is not None:
         applied = []
@@ -63,7 +98,30 @@ def _decoded(values, invalid, *, mosaic, mosaic_colour=None, demosaic="bilinear"
     if method.scale == 2:
         attrs["grid"] = ("superpixel: output pixel (y, x) covers sensor rows 2y..2y+1 and columns 2x..2x+1 "
                          "(centre at sensor 2x+0.5, 2y+0.5)")
-    return products, dec["channels"], attrs
+    return attrs
+
+
+def _decoded(values, invalid, *, mosaic, mosaic_colour=None, demosaic="bilinear", calibration=None,
+             full_scale=65535.0, srgb=False, noise=None, block_rows=None):
+    """Decode and estimate the whole frame (block by block): returns (products, channels, attrs)."""
+    layout = parse_mosaic(mosaic, mosaic_colour)
+    method = validate_method(demosaic)
+    values = np.asarray(values, dtype=np.float32)
+    check_frame_shape(values.shape, layout)
+    cal = _load_calibration(calibration)
+    h, w = values.shape
+    k = method.scale
+    full = None
+    dec0 = None
+    for o0, o1, products, dec in _estimate_blocks(values, invalid, layout, method, cal, full_scale=full_scale,
+                                                  srgb=srgb, noise=noise, block_rows=block_rows):
+        if full is None:
+            dec0 = dec
+            c = products["S0"].shape[0]
+            full = {n: np.empty((c, h // k, w // k), a.dtype) for n, a in products.items()}
+        for n, arr in products.items():
+            full[n][:, o0:o1] = arr
+    return full, dec0["channels"], _attrs(layout, method, cal, dec0)
 
 
 def stokes_from_mosaic_values(values, invalid=None, *, mosaic, mosaic_colour=None, demosaic="bilinear",
@@ -181,31 +239,43 @@ def run_mosaic_stokes(frames, out_dir, *, mosaic, mosaic_colour=None, demosaic="
     method = validate_method(demosaic)
     stack, attrs = _read(frames, layout, bit_depth, black_level, transfer, max_pixels)
     t_read = time.perf_counter() - t0
-    t1 = time.perf_counter()
-    products, channels, a = _decoded(stack.values, stack.invalid, mosaic=layout, demosaic=method.name,
-                                     calibration=calibration, full_scale=stack.info["white_level"],
-                                     srgb=stack.info["transfer"] == "srgb", noise=noise)
-    t_est = time.perf_counter() - t1
-    a.update(attrs)
-    nc_attrs = dataset_attrs(**a)
-    c, h, w = products["S0"].shape
-    names = [n for n in VARIABLES if n in products]
+    cal = _load_calibration(calibration)
+    hs, ws = stack.values.shape
+    k = method.scale
+    h, w = hs // k, ws // k
+    channels = layout.channels
+    c = len(channels)
+    names = None
+    t_est = t_nc = 0.0
     with OutputStage(out_dir) as stage:
-        t2 = time.perf_counter()
-        writer = NetCDFBlockWriter(stage.path("stokes.nc"), shape=(h, w), channels=channels, names=names,
-                                   attrs=nc_attrs)
-        try:
-            writer.write(0, h, products)
-            writer.commit()
-        except BaseException:
-            writer.abort()
-            raise
-        t_nc = time.perf_counter() - t2
         preview = PreviewSink((h, w))
         stats = StatsSink(c)
-        frame0 = products["S0"][None] * np.float32(0.5)
-        preview.write(0, h, products, frame0)
-        stats.write(0, h, products, frame0)
+        writer = None
+        a = None
+        try:
+            t1 = time.perf_counter()
+            for o0, o1, products, dec in _estimate_blocks(
+                    stack.values, stack.invalid, layout, method, cal, full_scale=stack.info["white_level"],
+                    srgb=stack.info["transfer"] == "srgb", noise=noise):
+                t_est += time.perf_counter() - t1
+                t2 = time.perf_counter()
+                if writer is None:
+                    a = _attrs(layout, method, cal, dec)
+                    a.update(attrs)
+                    names = [n for n in VARIABLES if n in products]
+                    writer = NetCDFBlockWriter(stage.path("stokes.nc"), shape=(h, w), channels=channels,
+                                               names=names, attrs=dataset_attrs(**a))
+                writer.write(o0, o1, products)
+                frame0 = products["S0"][None] * np.float32(0.5)
+                preview.write(o0, o1, products, frame0)
+                stats.write(o0, o1, products, frame0)
+                t_nc += time.perf_counter() - t2
+                t1 = time.perf_counter()
+            writer.commit()
+        except BaseException:
+            if writer is not None:
+                writer.abort()
+            raise
         t3 = time.perf_counter()
         pics = render.stokes_pictures(preview.finish(), stage.dir, channels=channels, step=preview.step) if pictures else []
         t_pics = time.perf_counter() - t3
@@ -236,7 +306,7 @@ def run_mosaic_stokes(frames, out_dir, *, mosaic, mosaic_colour=None, demosaic="
             "outputs": ["stokes.nc", "summary.json"] + [p.name for p in pics],
         }
         summary["timing_s"] = {"read": round(t_read, 4), "decode_estimate": round(t_est, 4),
-                               "write_netcdf": round(t_nc, 4), "write_pictures": round(t_pics, 4),
+                               "write_blocks": round(t_nc, 4), "write_pictures": round(t_pics, 4),
                                "total": round(time.perf_counter() - t0, 4)}
         write_json(stage.path("summary.json"), summary)
         stage.publish()
