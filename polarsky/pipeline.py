@@ -41,8 +41,10 @@ __all__ = [
 
 #: Full-well capacity assumed when no gain is given (electrons at full scale).
 DEFAULT_FULL_WELL_E = 20000.0
+#: Median relative fit residual above which the frames are said to disagree.
+RESIDUAL_WARNING = 0.03
 #: Target number of float32 values per frame in one row block.
-BLOCK_VALUES = 1 << 21
+BLOCK_VALUES = 1 << 20
 
 
 @dataclass
@@ -612,6 +614,12 @@ def run_stokes(frames=(), out_dir=None, *, pictures: bool = True, **options) -> 
             **stats.summary(bracket.channels),
             "outputs": ["stokes.nc", "summary.json"] + [p.name for p in pics],
         }
+        med = summary.get("residual_relative_median")
+        if med is not None and med > RESIDUAL_WARNING:
+            warnings.warn(f"frames disagree with the polarizer model: median fit residual {med * 100:.1f}% of S0 "
+                          f"(99th percentile {summary['residual_relative_p99'] * 100:.1f}%); see residual.png for "
+                          "motion, a passing cloud or exposure drift" + ("" if settings.align else ", or try --align"),
+                          PolarskyWarning, stacklevel=2)
         summary["timing_s"] = {
             "decode": round(t_decode, 4),
             "align": round(info["timing_s"]["align"], 4),
