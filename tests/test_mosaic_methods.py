@@ -124,14 +124,18 @@ def test_float32_in_float32_out_and_shapes(method):
             np.testing.assert_array_equal(out[p, py::2, px::2], raw[py::2, px::2])
 
 
-def test_newton_strips_equal_whole_frame(monkeypatch):
+@pytest.mark.parametrize("layout", ["90,45;135,0", "10,50;100,150"])
+def test_newton_kernels_equal_numpy_reference(layout):
     import polarsky.mosaic.methods as mm
+    from polarsky.mosaic.decode import position_matrix
+    from polarsky.stokes import solve_matrix
 
-    raw = mosaic_sample(scene_edges(64, 48), "90,45;135,0")
-    monkeypatch.setattr(mm, "_NEWTON_STRIP", 1 << 20)
-    whole = mm.demosaic_newton_li2019(raw)
-    monkeypatch.setattr(mm, "_NEWTON_STRIP", 16)
-    np.testing.assert_array_equal(mm.demosaic_newton_li2019(raw), whole)
+    raw = mosaic_sample(scene_edges(64, 48), layout)
+    ref = mm.demosaic_newton_numpy(raw)
+    np.testing.assert_allclose(mm.demosaic_newton_li2019(raw), ref, rtol=1e-5, atol=1e-6)
+    pm = solve_matrix(position_matrix(parse_mosaic(layout)))
+    np.testing.assert_allclose(mm.newton_stokes_li2019(raw, pm), fit_stokes(ref, position_matrix(parse_mosaic(layout))),
+                               rtol=1e-5, atol=1e-6)
 
 
 def test_unknown_method():

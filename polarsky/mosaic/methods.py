@@ -51,6 +51,7 @@ __all__ = [
     "demosaic_superpixel",
     "demosaic_bilinear",
     "demosaic_newton_li2019",
+    "demosaic_newton_numpy",
     "validate_method",
     "BILINEAR_KERNEL",
 ]
@@ -208,6 +209,14 @@ def demosaic_newton_li2019(raw, *, eps_rel=1e-3, eps=None):
     -------
     ndarray, shape (4, H, W)
 
+    Notes
+    -----
+    The formulas are the same at every pixel (pass 1 reads only the raw mosaic; in pass 2 the
+    horizontal partner is real left/right and from pass 1 above/below, the vertical partner
+    the other way round), so the method runs as two compiled passes
+    (:mod:`polarsky.mosaic._kernels`); :func:`demosaic_newton_numpy` is the plain numpy
+    reference.
+
     References
     ----------
     .. [1] N. Li, Y. Zhao, Q. Pan, S. G. Kong, "Demosaicking DoFP images using Newton's
@@ -217,19 +226,19 @@ def demosaic_newton_li2019(raw, *, eps_rel=1e-3, eps=None):
        polarimeters", Opt. Express 21(1), 1137-1151 (2013), doi:10.1364/OE.21.001137
        (diagonal-first, gradient-directed order).
     """
-    a = _as_float(raw)
+    a, eps_ = _newton_inputs(raw, eps_rel, eps)
+    if a.dtype != np.float32:  # the compiled kernels are float32; keep other dtypes exact
+        return demosaic_newton_numpy(a, eps=eps_)
+    from ._kernels import newton_channels
+
+    rp, dp = _newton_pass1(a, eps_)
     out = np.empty((4,) + a.shape, dtype=a.dtype)
-
-    def emit(planes, rows, r0, r1, s0):
-        for p in range(4):
-            out[p, r0:r1] = interleave(planes[p])[r0 - s0:r1 - s0]
-
-    _newton_strips(a, eps_rel, emit, eps)
+    newton_channels(rp, dp, eps_, out)
     return out
 
 
 def newton_stokes_li2019(raw, solve, *, eps_rel=1e-3, eps=None):
-    """Stokes maps straight from :func:`demosaic_newton_li2019` strips (fast path).
+    """Stokes maps straight from :func:`demosaic_newton_li2019` (fused pass, fast path).
 
     Parameters
     ----------
@@ -239,58 +248,46 @@ def newton_stokes_li2019(raw, solve, *, eps_rel=1e-3, eps=None):
 
     Returns
     -------
-    ndarray, shape (3, H, W)
+    ndarray, shape (3, H, W), float32
     """
-    a = _as_float(raw)
-    pm = np.asarray(solve, dtype=a.dtype)
+    from ._kernels import newton_stokes
+
+    a, eps_ = _newton_inputs(raw, eps_rel, eps)
+    if a.dtype != np.float32:
+        chans = demosaic_newton_numpy(a, eps=eps_)
+        return np.einsum("kp,p...->k...", np.asarray(solve, dtype=a.dtype), chans)
+    rp, dp = _newton_pass1(a, eps_)
     out = np.empty((3,) + a.shape, dtype=a.dtype)
-
-    def emit(planes, rows, r0, r1, s0):
-        for k in range(3):
-            st = []
-            for t in range(4):
-                acc = planes[0][t] * pm[k, 0]
-                for p in range(1, 4):
-                    if pm[k, p] != 0:
-                        acc += planes[p][t] * pm[k, p]
-                st.append(acc)
-            out[k, r0:r1] = interleave(st)[r0 - s0:r1 - s0]
-
-    _newton_strips(a, eps_rel, emit, eps)
+    newton_stokes(rp, dp, eps_, np.ascontiguousarray(solve, dtype=a.dtype), out)
     return out
 
 
-def _newton_strips(a, eps_rel, emit, eps=None):
-    """Run the Newton method on overlapping row strips (cache-friendly, on all cores); the
-    result is identical to processing the whole frame at once."""
-    h = a.shape[0]
+def _newton_inputs(raw, eps_rel, eps):
+    a = _as_float(raw)
     if eps is None:
         eps = eps_rel * max(float(np.mean(np.abs(a))), 1e-12)
-    step = _NEWTON_STRIP
-    starts = list(range(0, h, step))
-
-    def run(r0):
-        r1 = min(h, r0 + step)
-        s0, s1 = max(0, r0 - _NEWTON_MARGIN), min(h, r1 + _NEWTON_MARGIN)
-        emit(newton_planes_li2019(a[s0:s1], eps=eps), (s0, s1), r0, r1, s0)
-
-    if len(starts) == 1:
-        run(0)
-    else:
-        from concurrent.futures import ThreadPoolExecutor
-
-        with ThreadPoolExecutor(max_workers=_workers()) as ex:
-            list(ex.map(run, starts))
+    return a, a.dtype.type(eps)
 
 
-_NEWTON_STRIP = 256  # rows per strip (even)
-_NEWTON_MARGIN = 8   # rows of overlap: the method looks at most 6 rows away (even)
+def _newton_pass1(a, eps):
+    """Mirror-pad by 6 and run pass 1 (diagonal partners) on the frame padded by 3."""
+    from ._kernels import newton_diagonal
+
+    rp = cv2.copyMakeBorder(a, 6, 6, 6, 6, _BORDER)
+    dp = np.empty((a.shape[0] + 6, a.shape[1] + 6), a.dtype)
+    newton_diagonal(rp, eps, dp)
+    return rp, dp
 
 
-def _workers() -> int:
-    import os
-
-    return max(1, min(8, os.cpu_count() or 1))
+def demosaic_newton_numpy(raw, *, eps_rel=1e-3, eps=None):
+    """Reference implementation of :func:`demosaic_newton_li2019` in plain numpy (vectorised
+    over the four lattices; slower).  Tests check that the compiled kernels agree with it."""
+    a, eps_ = _newton_inputs(raw, eps_rel, eps)
+    planes = newton_planes_li2019(a, eps=float(eps_))
+    out = np.empty((4,) + a.shape, dtype=a.dtype)
+    for p in range(4):
+        interleave(planes[p], out=out[p])
+    return out
 
 
 def newton_planes_li2019(raw, *, eps):
