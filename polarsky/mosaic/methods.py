@@ -172,7 +172,7 @@ def demosaic_newton_li2019(raw, *, eps_rel=1e-3, eps=None):
     """Edge-directed Newton-polynomial demosaicing guided by polarization differences.
 
     The method follows the three ideas of Li et al. (2019): (i) each missing orientation is
-    interpolated along a direction with a second-order Newton polynomial whose error term
+    interpolated along a direction with a Newton polynomial whose correction (error) term
     is taken from the pixel's own orientation, i.e. the interpolation is carried out on the
     *polarization difference* between the two orientations, which is much smoother than
     either intensity (an unpolarized edge has the same step in all four); (ii) an edge
