@@ -72,3 +72,16 @@ def test_colour_mosaic_from_file(tmp_path):
     ds = stokes_from_mosaic_files([p], mosaic=LAY, mosaic_colour="bggr", demosaic="newton")
     assert list(ds.channel.values) == ["R", "G", "B"] and ds.attrs["mosaic_colour"] == "BGGR"
     np.testing.assert_allclose(ds.dolp.values[:, 5, 5], [0.2, 0.4, 0.6], atol=2e-3)
+
+
+@pytest.mark.parametrize("order", BAYER_ORDERS)
+def test_colour_bilinear_exact_on_affine_fields_interior(order):
+    # the bilinear rule of REFERENCES.md 8.1 applied on each (colour, orientation) lattice:
+    # period-4 tents for R and B, G cells filled then bilinear -> affine fields exact inside
+    y, x = np.mgrid[0:H, 0:W].astype(np.float64)
+    s = np.stack([1 + 0.01 * x + 0.02 * y, 0.1 + 0.003 * x - 0.002 * y, -0.05 + 0.001 * x + 0.004 * y])
+    s3 = np.stack([s * f for f in FACT])
+    lay = parse_mosaic(LAY, order)
+    ds = stokes_from_mosaic_values(mosaic_sample(s3, lay, dtype=np.float64), mosaic=LAY, mosaic_colour=order)
+    for i, name in enumerate(("S0", "S1", "S2")):
+        np.testing.assert_allclose(ds[name].values[:, 4:-4, 4:-4], s3[:, i, 4:-4, 4:-4], atol=2e-6)

@@ -21,11 +21,13 @@ Calibration, decided here:
   Pixels flagged defective (dead or hot) are replaced by the mean of their four nearest
   neighbours of the same orientation before decoding.
 
-Colour sensors (Bayer cells): each colour's 2x2 cells are packed into a monochrome
-polarization mosaic, decoded with the chosen method, placed back, and then colour is
-demosaiced bilinearly on the grid of cells (one Bayer pattern per pixel offset within the
-cell), giving channels R, G, B.  The same linear colour interpolation is applied to the
-per-pixel analysis rows when a flat calibration is used.
+Colour sensors (Bayer cells): with ``bilinear`` every (colour, orientation) channel is
+interpolated on its own lattice in sensor coordinates (exact on affine fields, see
+:func:`_decode_colour_bilinear`).  With the other methods each colour's 2x2 cells are packed
+into a monochrome polarization mosaic, decoded with the chosen method, placed back, and then
+colour is demosaiced bilinearly on the grid of cells (one Bayer pattern per pixel offset within
+the cell).  Either way the result has channels R, G, B, and the same linear interpolation is
+applied to the per-pixel analysis rows when a flat calibration is used.
 """
 
 from __future__ import annotations
@@ -298,6 +300,63 @@ def _decode_colour(values, invalid, layout, method, rows=None, nominal=None, opt
     return inten, np.broadcast_to(valid, (3, oh, ow)).copy(), out_rows
 
 
+_K4 = np.array([1, 2, 3, 4, 3, 2, 1], dtype=np.float32) / 4.0  # tent of a period-4 lattice
+_KA = np.zeros((5, 5), np.float32)  # G cells: fill the R/B cells of the period-2 lattice
+_KA[2, 2] = 1.0
+_KA[0, 2] = _KA[4, 2] = _KA[2, 0] = _KA[2, 4] = 0.25
+
+
+def _normalised(z, mask, apply):
+    """Normalised convolution: ``apply(z) / apply(mask)`` (exact weights also at borders)."""
+    with np.errstate(invalid="ignore", divide="ignore"):
+        return apply(z) / apply(mask)
+
+
+def _decode_colour_bilinear(values, invalid, layout, rows=None):
+    """Colour sensor, bilinear: every (colour, orientation) channel interpolated on its own
+    lattice in sensor coordinates.
+
+    R and B samples of one orientation lie on a period-4 lattice (tent kernel
+    [1,2,3,4,3,2,1]/4 in each direction); G samples on two such lattices offset by one cell,
+    whose missing cells of the period-2 lattice are first filled with the mean of their four
+    G neighbours two pixels away, then bilinearly interpolated like a monochrome channel.
+    Both reproduce affine fields exactly away from the borders (normalised convolution at the
+    borders).  This reconstructs each colour's polarization channels and demosaics colour in
+    one linear step.
+    """
+    h, w = values.shape
+    cc = bayer_cell_colours(layout.colour)
+    cmap = np.tile(np.repeat(np.repeat(cc, 2, 0), 2, 1), (h // 4, w // 4))
+    pos = np.tile(np.arange(4).reshape(2, 2), (h // 2, w // 2))
+    inten = np.empty((4, 3, h, w), np.float32)
+    out_rows = None if rows is None else np.empty((3, 4, 3, h, w), np.float32)
+    tent = lambda a: cv2.sepFilter2D(a, -1, _K4, _K4, borderType=_BORDER)  # noqa: E731
+    fill = lambda a: cv2.filter2D(a, -1, _KA, borderType=_BORDER)  # noqa: E731
+    bil = lambda a: cv2.filter2D(a, -1, BILINEAR_KERNEL, borderType=_BORDER)  # noqa: E731
+    for p in range(4):
+        py, px = divmod(p, 2)
+        lattice2 = np.zeros((h, w), np.float32)
+        lattice2[py::2, px::2] = 1.0
+        for c in range(3):
+            m = ((cmap == c) & (pos == p)).astype(np.float32)
+            planes = [values] + ([] if rows is None else [rows[j] for j in range(3)])
+            res = []
+            for pl in planes:
+                z = pl * m
+                if c == 1:
+                    step = np.where(lattice2 > 0, _normalised(z, m, fill), np.float32(0))
+                    res.append(_normalised(step, lattice2, bil))
+                else:
+                    res.append(_normalised(z, m, tent))
+            inten[p, c] = res[0]
+            if rows is not None:
+                out_rows[c, p] = np.stack(res[1:])
+    support = 3
+    inv = cv2.dilate(np.asarray(invalid, np.uint8), np.ones((2 * support + 1,) * 2, np.uint8),
+                     borderType=_BORDER) > 0
+    return inten, np.broadcast_to(~inv, (3, h, w)).copy(), out_rows
+
+
 def decode_mosaic(values, invalid, layout: MosaicLayout, method="bilinear", calibration=None, *, scale=None):
     """Decode linear mosaic values into the inputs of the Stokes estimate.
 
@@ -346,6 +405,8 @@ def decode_mosaic(values, invalid, layout: MosaicLayout, method="bilinear", cali
         inten = inten[:, None]
         valid = (~inv)[None]
         prow = None if prow is None else prow[None]
+    elif validate_method(method).name == "bilinear":
+        inten, valid, prow = _decode_colour_bilinear(values, invalid, layout, rows)
     else:
         inten, valid, prow = _decode_colour(values, invalid, layout, method, rows, nominal, options)
     solve = None
