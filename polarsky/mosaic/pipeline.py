@@ -277,7 +277,7 @@ def run_mosaic_stokes(frames, out_dir, *, mosaic, mosaic_colour=None, demosaic="
                 writer.abort()
             raise
         t3 = time.perf_counter()
-        pics = render.stokes_pictures(preview.finish(), stage.dir, channels=channels, step=preview.step) if pictures else []
+        pics = render.stokes_pictures(preview.finish(), stage.dir, channels=channels, step=preview.step, polarizer="sensor") if pictures else []
         t_pics = time.perf_counter() - t3
         summary = {
             "inputs": attrs["inputs"],
