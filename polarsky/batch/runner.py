@@ -20,7 +20,6 @@ import contextlib
 import csv
 import inspect
 import io
-import json
 import logging
 import os
 import shutil
@@ -578,7 +577,3 @@ def _gather(client, tasks, run_id, progress) -> dict[int, dict]:
     finally:
         bar.close()
     return rows
-
-
-def result_json(result: dict) -> str:
-    return json.dumps(result, sort_keys=False, default=str)
