@@ -93,6 +93,7 @@ def test_not_toml_and_missing_file(tmp_path):
     ("cluster", "scheduler", "'localhost'", "tcp://host:8786"),
     ("cluster", "workers", "0", "positive"),
     ("report", "thumbnail_px", "2.5", "whole number"),
+    ("report", "embed_images", "'yes'", "true, false or"),
 ])
 def test_bad_values_name_key_and_file(tmp_path, table, key, value, match):
     p = _write(tmp_path, f"[{table}]\n{key} = {value}\n")

@@ -64,3 +64,10 @@ def test_frame_thumbnail_with_axis_is_small_and_marked(tmp_path):
     assert max(a.shape[:2]) == 120
     mid = a[a.shape[0] // 2]  # a horizontal axis crosses the middle row: yellow
     assert (mid[:, 0] > 200).mean() > 0.9 and (mid[:, 2] < 50).mean() > 0.9
+
+
+def test_auto_embedding_stops_at_the_limit():
+    from polarsky.batch.runner import EMBED_LIMIT, _embed
+
+    assert _embed("auto", EMBED_LIMIT) and not _embed("auto", EMBED_LIMIT + 1)
+    assert _embed(True, 10 ** 6) and not _embed(False, 1)

@@ -31,7 +31,8 @@ Example (every key optional)::
     # keys are passed to polarsky.sky.run_sky (checked against its parameters)
 
     [report]
-    embed_images = true            # thumbnails inside report.html (else beside it)
+    embed_images = "auto"          # thumbnails inside report.html (true), linked beside it
+                                   # (false), or inside up to 300 brackets ("auto")
     thumbnail_px = 240
 
     [cluster]
@@ -63,7 +64,7 @@ DEFAULTS: dict = {
     "advise": {"region": None, "protect": None},
     "mosaic": {"cell": None, "colour": None, "demosaic": None, "bit_depth": None, "black_level": None},
     "sky": {},
-    "report": {"embed_images": True, "thumbnail_px": 240},
+    "report": {"embed_images": "auto", "thumbnail_px": 240},
     "cluster": {"workers": None, "scheduler": None, "dashboard": False},
 }
 _OPEN_TABLES = {"sky"}  # keys checked against run_sky's signature instead
@@ -187,8 +188,9 @@ def check_settings(settings: dict, *, source: str = "", base: Path | None = None
     sky_mask = s["sky"].get("sky_mask_path")
     if isinstance(sky_mask, str) and base is not None and not Path(sky_mask).is_absolute():
         s["sky"]["sky_mask_path"] = str((base / sky_mask).resolve())
-    if not isinstance(rep["embed_images"], bool):
-        raise InputError(f"{_where(source, 'report', 'embed_images')} must be true or false")
+    if not (isinstance(rep["embed_images"], bool) or rep["embed_images"] == "auto"):
+        raise InputError(f"{_where(source, 'report', 'embed_images')} must be true, false or \"auto\", "
+                         f"got {rep['embed_images']!r}")
     rep["thumbnail_px"] = _num(rep["thumbnail_px"], _where(source, "report", "thumbnail_px"),
                                positive=True, integer=True, allow_none=False)
     cl["workers"] = _num(cl["workers"], _where(source, "cluster", "workers"), positive=True, integer=True)

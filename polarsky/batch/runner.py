@@ -425,6 +425,15 @@ def batch_client(*, workers: int, scheduler: str | None, scratch: Path, dashboar
         stack.close()
 
 
+#: With embed_images = "auto", pictures are embedded in report.html up to this many brackets
+#: (about 40 kB each); beyond, they are linked beside it so the page stays quick to open.
+EMBED_LIMIT = 300
+
+
+def _embed(setting, n_rows: int) -> bool:
+    return bool(setting) if setting != "auto" else n_rows <= EMBED_LIMIT
+
+
 def write_summary_csv(path, rows) -> None:
     buf = io.StringIO()
     w = csv.DictWriter(buf, fieldnames=SUMMARY_COLUMNS, extrasaction="ignore", lineterminator="\n")
@@ -499,7 +508,7 @@ def run_batch(root, out_dir, *, settings: dict, workers: int | None = None, sche
                          "sensors at it; follow local codes and licensed practice for work at height or near water.")
         write_report(out_dir / "report.html", ordered, out_dir=out_dir,
                      title=f"polarsky batch: {root.resolve().name}", notes=notes,
-                     embed_images=settings["report"]["embed_images"])
+                     embed_images=_embed(settings["report"]["embed_images"], len(ordered)))
     counts = {s: sum(r["status"] == s for r in ordered) for s in ("done", "skipped", "failed")}
     return {"root": str(root.resolve()), "out": str(out_dir), "brackets": len(ordered), **counts,
             "summary_csv": str(out_dir / "summary.csv"), "report_html": str(out_dir / "report.html"),
