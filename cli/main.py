@@ -9,6 +9,7 @@ in-process by tests.  Exit status: 0 success, 1 the job ran but part of it faile
 from __future__ import annotations
 
 import importlib
+import os
 import sys
 import warnings
 
@@ -63,9 +64,6 @@ def main(args=None) -> int:
     except InputError as exc:
         print(f"error: {exc}", file=sys.stderr)
         return 2
-    except click.exceptions.NoArgsIsHelp as exc:  # pragma: no cover - click >= 8.2
-        print(exc.format_message() if hasattr(exc, "format_message") else str(exc), file=sys.stderr)
-        return 2
     except click.UsageError as exc:
         hint = f" (see 'polarsky {exc.ctx.info_name} --help')" if exc.ctx and exc.ctx.parent else " (see 'polarsky --help')"
         print(f"error: {one_line(exc.format_message())}{hint}", file=sys.stderr)
@@ -78,6 +76,15 @@ def main(args=None) -> int:
     except KeyboardInterrupt:
         print("error: interrupted", file=sys.stderr)
         return 130
+    except OSError as exc:
+        print(f"error: {one_line(exc)}", file=sys.stderr)
+        return 2
+    except Exception as exc:  # noqa: BLE001 - a bug: say so in one line, traceback on request
+        if os.environ.get("POLARSKY_DEBUG"):
+            raise
+        print(f"error: internal error ({type(exc).__name__}: {one_line(exc)}); "
+              "rerun with POLARSKY_DEBUG=1 for details and please report it", file=sys.stderr)
+        return 1
     finally:
         warnings.showwarning = old
 
