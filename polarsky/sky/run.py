@@ -31,7 +31,7 @@ __all__ = ["run_sky", "prepare_sky", "SUN_CAUTION", "BRACKET_KEYS"]
 
 #: Options passed through to the bracket path (``polarsky.pipeline.stokes_from_files``).
 BRACKET_KEYS = ("angles_deg", "manifest", "transfer", "extinction", "angle_offset_deg", "align",
-                "calibration", "max_pixels")
+                "calibration", "max_pixels", "gain_e_per_dn", "read_noise_dn", "noise", "exposures_s")
 
 SUN_CAUTION = ("caution: never look at the sun through a viewfinder, lens or polarizer, and do not leave a "
                "camera aimed at the sun; follow local safety rules and your equipment's instructions")
@@ -104,7 +104,10 @@ def prepare_sky(frames=(), *, stokes=None, when=None, lat=None, lon=None, altitu
                          circle_center_px=circle_center_px, circle_radius_px=circle_radius_px)
     attrs = products.get("attrs", {})
     if polarizer is None:
-        polarizer = "sensor" if str(attrs.get("mosaic", "") or "").strip() not in ("", "none", "None") else "front"
+        # the placement the Stokes estimate recorded; mosaic sensors carry their polarizers on the sensor
+        recorded = str(attrs.get("polarizer", "") or "")
+        mosaic = str(attrs.get("mosaic", "") or "").strip() not in ("", "none", "None", "0")
+        polarizer = recorded if recorded in PLACEMENTS else ("sensor" if mosaic else "front")
     for name, val in (("--yaw-deg", yaw_deg), ("--pitch-deg", pitch_deg), ("--roll-deg", roll_deg)):
         if not np.isfinite(float(val)):
             raise InputError(f"{name} {val} is not a number")

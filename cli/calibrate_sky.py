@@ -1,0 +1,65 @@
+"""``polarsky calibrate sky``: analyzer angle offset (and diattenuation) from the clear sky."""
+
+from __future__ import annotations
+
+import click
+
+from polarsky.errors import InputError
+
+from .common import ANGLE_HELP, bracket_kwargs, bracket_options, frames_argument, print_json
+from .sky import geometry_kwargs, geometry_options, parse_floats
+
+
+@click.command(name="sky", epilog=ANGLE_HELP + " Several brackets: give their frames in order with --bracket-size N "
+               "(or one stokes.nc per bracket) and one --pose YAW,PITCH,ROLL per bracket.")
+@frames_argument
+@bracket_options
+@geometry_options
+@click.option("--bracket-size", type=int, default=None,
+              help="Split FRAME... into brackets of this many consecutive frames (default: one bracket); "
+                   "--angles then lists the angles of one bracket.")
+@click.option("--pose", "poses", multiple=True, metavar="YAW,PITCH,ROLL",
+              help="Orientation of each bracket in degrees, repeated once per bracket (default: --yaw-deg, "
+                   "--pitch-deg, --roll-deg for all).")
+@click.option("--solve", default=None, metavar="yaw,pitch",
+              help="Also fit these orientation angles per bracket. Leave roll out over narrow fields: it cannot be "
+                   "told apart from the angle offset.")
+@click.option("--reference-dolp-max", type=float, default=None,
+              help="The sky's true maximum DoLP (e.g. from a reference polarimeter); enables the diattenuation estimate.")
+@click.option("--out", "out_path", required=True, type=click.Path(dir_okay=False, path_type=str), metavar="CAL.nc",
+              help="Calibration file to write.")
+@click.option("--json", "as_json", is_flag=True, help="Print the result as one JSON object.")
+def command(frames, out_path, as_json, bracket_size, poses, solve, reference_dolp_max, **kw):
+    """Analyzer angle offset per channel from clear-sky FRAME... (apply with 'polarsky stokes --calibration').
+
+    The offset is the angle to add to the nominal analyzer angles (filter-ring readings) so
+    that the sky's AoLP matches the single-scattering model at the known sun position.
+    """
+    from polarsky.sky.calibrate import run_sky_calibration, split_brackets
+
+    frames = list(frames)
+    if not frames:
+        raise InputError("give the frames of at least one clear-sky bracket (or stokes.nc files)")
+    brackets = split_brackets(frames, bracket_size)
+    pose_list = [parse_floats(p, "--pose", 3) for p in poses] or None
+    geo = geometry_kwargs(kw)
+    geo.pop("pictures", None)
+    opts = bracket_kwargs(kw)
+    angles = opts.get("angles_deg")
+    res = run_sky_calibration(brackets, out_path, poses=pose_list, solve=solve or (),
+                              reference_dolp_max=reference_dolp_max, **geo, **opts)
+    if as_json:
+        print_json(res)
+        return 0
+    for ch, off, sig in zip(res["channels"], res["angle_offset_deg"], res["angle_offset_sigma_deg"]):
+        s = "undetermined" if sig is None else f"± {sig:.3f}"
+        click.echo(f"channel {ch}: analyzer angle offset {off:+.3f} {s} deg")
+    if res["diattenuation"] is not None:
+        click.echo("effective diattenuation: " + ", ".join(f"{ch} {d:.4f} ± {s:.4f}" for ch, d, s in
+                                                          zip(res["channels"], res["diattenuation"], res["diattenuation_sigma"])))
+    for note in res["notes"]:
+        click.echo("note: " + note)
+    click.echo(f"wrote {res['calibration']} ({res['brackets']} bracket(s), {res['sky_pixels']} sky pixels"
+               f"{', angles ' + str(angles) if angles else ''})")
+    click.echo(res["caution"])
+    return 0
