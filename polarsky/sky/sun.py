@@ -16,11 +16,10 @@ from __future__ import annotations
 
 import datetime as _dt
 import re
-import warnings
 
 import numpy as np
 
-from ..errors import InputError, PolarskyWarning
+from ..errors import InputError
 
 __all__ = ["parse_when", "sun_position", "read_exif", "resolve_time_place"]
 
@@ -113,10 +112,12 @@ def sun_position(when: _dt.datetime, latitude_deg: float, longitude_deg: float, 
 # ---------------------------------------------------------------------------------------
 # EXIF
 def _ratio(v) -> float:
-    try:
+    """A number from an EXIF rational (exifread Ratio, (num, den) pair or plain number)."""
+    if hasattr(v, "num") and hasattr(v, "den"):
         return float(v.num) / float(v.den)
-    except AttributeError:
-        return float(v)
+    if isinstance(v, (tuple, list)) and len(v) == 2:
+        return float(v[0]) / float(v[1])
+    return float(v)
 
 
 def _dms(tag) -> float:
@@ -176,19 +177,19 @@ def read_exif(path) -> dict:
             if ref is not None and str(ref.values[0] if isinstance(ref.values, list) else ref.values) == "1":
                 alt = -alt
             out["altitude_m"] = alt
-    except (ZeroDivisionError, IndexError, AttributeError, ValueError):
+    except (ZeroDivisionError, IndexError, AttributeError, ValueError, TypeError):
         pass
     if "EXIF FocalLength" in tags:
         try:
             out["focal_mm"] = _ratio(tags["EXIF FocalLength"].values[0])
-        except (ZeroDivisionError, IndexError):
+        except (ZeroDivisionError, IndexError, TypeError, ValueError):
             pass
     if "EXIF FocalLengthIn35mmFilm" in tags:
         try:
             v = float(_ratio(tags["EXIF FocalLengthIn35mmFilm"].values[0]))
             if v > 0:
                 out["focal_35mm"] = v
-        except (ZeroDivisionError, IndexError, ValueError):
+        except (ZeroDivisionError, IndexError, ValueError, TypeError):
             pass
     return out
 

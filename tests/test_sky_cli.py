@@ -1,0 +1,111 @@
+"""``polarsky sky`` and ``polarsky calibrate sky`` on the command line."""
+
+import json
+import subprocess
+import sys
+from pathlib import Path
+
+import numpy as np
+import pytest
+
+from cli.main import main
+from polarsky.geometry import make_lens
+from polarsky.sky.skymap import SkyGeometry
+from polarsky.sky.sun import parse_when, sun_position
+from polarsky.sky.synth import render_sky_bracket, write_tiff_bracket
+
+ROOT = Path(__file__).resolve().parents[1]
+WHEN = "2024-06-21T17:30:00+02:00"
+GEO = ["--when", WHEN, "--lat", "47", "--lon", "8", "--hfov-deg", "70", "--yaw-deg", "10", "--pitch-deg", "25",
+       "--roll-deg", "4"]
+
+
+@pytest.fixture(scope="module")
+def frames(tmp_path_factory):
+    sun = sun_position(parse_when(WHEN), 47.0, 8.0)
+    g = SkyGeometry(make_lens("pinhole", 64, 48, hfov_deg=70), 10, 25, 4, sun["azimuth_deg"], sun["elevation_deg"])
+    i = render_sky_bracket(g, (0, 45, 90, 135), noise_sigma=0.002, analyzer_offset_deg=2.0)
+    return [str(p) for p in write_tiff_bracket(tmp_path_factory.mktemp("cli"), i, (0, 45, 90, 135))]
+
+
+def test_sky_json_prints_one_object(frames, tmp_path, capsys):
+    rc = main(["sky", *frames, *GEO, "--out", str(tmp_path / "o"), "--json", "--no-pictures"])
+    out = capsys.readouterr().out
+    assert rc == 0
+    obj = json.loads(out)
+    assert out.strip().count("\n") == 0
+    for k in ("sun_azimuth_deg", "sun_elevation_deg", "dolp_max", "aolp_rms_deg", "dolp_rms", "sky_pixels",
+              "yaw_deg", "pitch_deg", "roll_deg", "polarizer", "dolp_max_sigma", "caution"):
+        assert k in obj
+    assert obj["polarizer"] == "front"
+
+
+def test_sky_human_output_has_caution(frames, tmp_path, capsys):
+    rc = main(["sky", *frames, *GEO, "--out", str(tmp_path / "h"), "--no-pictures", "--solve", "yaw"])
+    out = capsys.readouterr().out
+    assert rc == 0
+    assert "sun: azimuth" in out and "solved: yaw" in out and "caution:" in out
+
+
+def test_calibrate_sky_writes_cal_nc(frames, tmp_path, capsys):
+    rc = main(["calibrate", "sky", *frames, *GEO, "--out", str(tmp_path / "cal.nc"), "--json"])
+    obj = json.loads(capsys.readouterr().out)
+    assert rc == 0 and (tmp_path / "cal.nc").is_file()
+    assert obj["angle_offset_deg"][0] == pytest.approx(2.0, abs=0.15)
+    rc = main(["stokes", *frames, "--calibration", str(tmp_path / "cal.nc"), "--out", str(tmp_path / "st")])
+    capsys.readouterr()
+    assert rc == 0
+    rc = main(["sky", str(tmp_path / "st" / "stokes.nc"), *GEO, "--out", str(tmp_path / "o2"), "--json",
+               "--no-pictures"])
+    after = json.loads(capsys.readouterr().out)
+    assert rc == 0 and abs(after["aolp_bias_deg"]) < 0.3
+
+
+@pytest.mark.parametrize("extra,match", [
+    (["--when", "2024-06-21T17:30:00"], "no UTC offset"),
+    (["--solve", "yaw,tilt"], "tilt not known"),
+    (["--distortion", "0.1,0.2"], "4, 5 or 8"),
+    (["--sky-mask", "/nonexistent/m.png"], "does not exist"),
+    (["--pitch-deg", "120"], "must lie in \\[-90, 90\\]"),
+    (["--circle-center-px", "1,2,3"], "must hold 2 numbers"),
+])
+def test_sky_bad_input_exit_2(frames, tmp_path, capsys, extra, match):
+    rc = main(["sky", *frames, *GEO, *extra, "--out", str(tmp_path / "bad"), "--no-pictures"])
+    err = capsys.readouterr().err
+    assert rc == 2
+    assert err.startswith("error: ") and err.count("\n") == 1
+    import re
+
+    assert re.search(match, err)
+    assert not (tmp_path / "bad" / "sky.json").exists()
+
+
+def test_sky_without_place_is_an_error(frames, tmp_path, capsys):
+    rc = main(["sky", *frames, "--when", WHEN, "--hfov-deg", "70", "--out", str(tmp_path / "np")])
+    assert rc == 2 and "place is unknown" in capsys.readouterr().err
+
+
+def test_calibrate_bad_bracket_size(frames, tmp_path, capsys):
+    rc = main(["calibrate", "sky", *frames, *GEO, "--bracket-size", "3", "--out", str(tmp_path / "c.nc")])
+    assert rc == 2 and "do not split" in capsys.readouterr().err
+
+
+def test_calibrate_tie_is_reported(frames, tmp_path, capsys):
+    rc = main(["calibrate", "sky", *frames, *GEO, "--solve", "roll", "--out", str(tmp_path / "c.nc")])
+    err = capsys.readouterr().err
+    assert rc == 2 and "cannot be told apart" in err and not (tmp_path / "c.nc").exists()
+
+
+def test_sky_subprocess(frames, tmp_path):
+    cmd = [sys.executable, "-m", "cli.main", "sky", *frames, *GEO, "--out", str(tmp_path / "sp"), "--json",
+           "--no-pictures"]
+    p = subprocess.run(cmd, cwd=ROOT, capture_output=True, text=True, timeout=120)
+    assert p.returncode == 0, p.stderr
+    assert json.loads(p.stdout)["sky_pixels"] > 0
+
+
+def test_calibrate_sky_subprocess(frames, tmp_path):
+    cmd = [sys.executable, "-m", "cli.main", "calibrate", "sky", *frames, *GEO, "--out", str(tmp_path / "c.nc")]
+    p = subprocess.run(cmd, cwd=ROOT, capture_output=True, text=True, timeout=120)
+    assert p.returncode == 0, p.stderr
+    assert "analyzer angle offset" in p.stdout and (tmp_path / "c.nc").is_file()
