@@ -117,23 +117,29 @@ def save_sky_pictures(out_dir, *, geom, bands, observed_dolp, observed_aolp, mod
          "DoLP residual (sky pixels used)"),
     ]
     names = []
+    # one figure, re-used for every map: the overlays are drawn once
+    fig, ax = plt.subplots(figsize=(7.2, 7.2 * h / w + 0.8), layout="constrained")
+    first = specs[0]
+    im = ax.imshow(np.zeros(scat.shape), extent=extent, interpolation="nearest")
+    cb = fig.colorbar(im, ax=ax, fraction=0.046, pad=0.03)
+    _overlay(ax, geom, scat, bands, st, (h, w))
+    ax.set_xlim(-0.5, w - 0.5)
+    ax.set_ylim(h - 0.5, -0.5)
+    ax.set_xlabel("column (px)   grey: not shown (not sky / invalid)", fontsize=8)
+    ax.set_ylabel("row (px)")
+    del first
     for fname, arr, show, cmap_name, (vmin, vmax), key, title in specs:
-        data = np.where(show, arr, np.nan)
-        cmap = plt.get_cmap(cmap_name).with_extremes(bad=_GREY)
-        fig, ax = plt.subplots(figsize=(7.2, 7.2 * h / w + 0.8), layout="constrained")
-        im = ax.imshow(np.ma.masked_invalid(data), cmap=cmap, vmin=vmin, vmax=vmax, extent=extent,
-                       interpolation="nearest")
-        cb = fig.colorbar(im, ax=ax, fraction=0.046, pad=0.03)
+        data = np.ma.masked_invalid(np.where(show, arr, np.nan))
+        im.set_data(data)
+        im.set_cmap(plt.get_cmap(cmap_name).with_extremes(bad=_GREY))
+        im.set_clim(vmin, vmax)
+        cb.update_normal(im)
         cb.set_label(key)
-        _overlay(ax, geom, scat, bands, st, (h, w))
-        ax.set_xlim(-0.5, w - 0.5)
-        ax.set_ylim(h - 0.5, -0.5)
         ax.set_title(title + ("\n" + summary_line if summary_line else ""), fontsize=9)
-        ax.set_xlabel("column (px)   grey: not shown (not sky / invalid)", fontsize=8)
-        ax.set_ylabel("row (px)")
         _save(fig, out_dir / fname)
-        plt.close(fig)
         names.append(fname)
+        fig.set_layout_engine("none")  # keep the first layout for the others (much faster)
+    plt.close(fig)
     # the mask
     codes = sorted(MASK_REASONS)
     cmap = ListedColormap([_MASK_COLOURS[c] for c in codes])

@@ -323,7 +323,7 @@ def _run(products, geom, info, out_dir, *, solve, sky_model, sky_mask_path, sun_
         if f"{ang}_sigma_deg" in orientation:
             result[f"{ang}_sigma_deg"] = orientation[f"{ang}_sigma_deg"]
     out_dir.mkdir(parents=True, exist_ok=True)
-    _write_nc(out_dir / "sky.nc", dolp=dolp, aolp=aolp, dolp_model=dolp_model, aolp_model=maps["aolp"],
+    _write_nc(out_dir / "sky.nc", dolp_model=dolp_model, aolp_model=maps["aolp"],
               dolp_res=dolp_res, aolp_res=aolp_res, maps=maps, reason=reason, channels=channels, result=result)
     files = ["sky.json", "sky.nc"]
     if pictures:
@@ -340,14 +340,12 @@ def _run(products, geom, info, out_dir, *, solve, sky_model, sky_mask_path, sun_
     return result
 
 
-def _write_nc(path: Path, *, dolp, aolp, dolp_model, aolp_model, dolp_res, aolp_res, maps, reason, channels, result):
+def _write_nc(path: Path, *, dolp_model, aolp_model, dolp_res, aolp_res, maps, reason, channels, result):
     import xarray as xr
 
     cyx, yx = ("channel", "y", "x"), ("y", "x")
     f32 = np.float32
     dv = {
-        "dolp": (cyx, dolp.astype(f32), {"units": "1", "long_name": "observed degree of linear polarization"}),
-        "aolp": (cyx, aolp.astype(f32), {"units": "degree", "long_name": "observed angle of linear polarization"}),
         "dolp_model": (cyx, dolp_model, {"units": "1", "long_name": "model DoLP (fitted dolp_max)"}),
         "aolp_model": (yx, aolp_model.astype(f32), {"units": "degree", "long_name": "model AoLP, image convention"}),
         "dolp_residual": (cyx, dolp_res, {"units": "1", "long_name": "observed minus model DoLP"}),
@@ -370,7 +368,8 @@ def _write_nc(path: Path, *, dolp, aolp, dolp_model, aolp_model, dolp_res, aolp_
                                  "AoLP in [0, 180)")
     attrs["created"] = _dt.datetime.now(_dt.timezone.utc).isoformat(timespec="seconds")
     ds = xr.Dataset(dv, coords={"channel": list(channels)}, attrs=attrs)
-    enc = {k: {"zlib": True, "complevel": 1} for k in dv}
+    # uncompressed: zlib on full-frame float maps costs several times the whole comparison
+    enc = None
     tmp = path.with_name(f".{path.name}.tmp-{os.getpid()}")
     try:
         ds.to_netcdf(tmp, engine="h5netcdf", encoding=enc)
