@@ -184,20 +184,24 @@ def run_sky(frames, out_dir, *, stokes=None, solve=(), sky_mask_path=None, model
     sky_model = get_model(model)
     if not (0 <= sun_mask_deg < 90):
         raise InputError(f"--sun-mask-deg {sun_mask_deg:g} must lie in [0, 90)")
-    collected: list[str] = []
+    from ..pipeline import OutputStage
+
     with warnings.catch_warnings(record=True) as caught:
         warnings.simplefilter("always", PolarskyWarning)
         products, geom, info = prepare_sky(frames, stokes=stokes, **options)
-        result = _run(products, geom, info, out_dir, solve=solve, sky_model=sky_model, sky_mask_path=sky_mask_path,
-                      sun_mask_deg=sun_mask_deg, min_elevation_deg=min_elevation_deg, pictures=pictures,
-                      max_fit_samples=max_fit_samples, seed=seed, frames=frames)
-    for wmsg in caught:
-        if issubclass(wmsg.category, PolarskyWarning):
-            collected.append(str(wmsg.message))
+        # everything is written to a hidden staging folder and published at the end, so a
+        # failed run leaves no partial outputs
+        with OutputStage(out_dir) as stage:
+            result = _run(products, geom, info, stage.dir, solve=solve, sky_model=sky_model,
+                          sky_mask_path=sky_mask_path, sun_mask_deg=sun_mask_deg,
+                          min_elevation_deg=min_elevation_deg, pictures=pictures,
+                          max_fit_samples=max_fit_samples, seed=seed, frames=frames)
+            result["warnings"] = [str(w.message) for w in caught if issubclass(w.category, PolarskyWarning)]
+            result = _jsonable(result)
+            _write_json(stage.dir / "sky.json", result)
+            stage.publish()
+    for wmsg in caught:  # hand the warnings on to the caller
         warnings.warn_explicit(wmsg.message, wmsg.category, wmsg.filename, wmsg.lineno)
-    result["warnings"] = collected
-    result = _jsonable(result)
-    _write_json(out_dir / "sky.json", result)
     return result
 
 
