@@ -238,3 +238,19 @@ def test_split_brackets_errors():
 def test_pose_count_must_match(tmp_path):
     with pytest.raises(InputError, match="2 --pose values for 1 bracket"):
         run_sky_calibration([["a"]], tmp_path / "c.nc", poses=[(0, 0, 0), (1, 1, 1)], **PLACE)
+
+
+def test_colour_bracket_per_channel_fit(tmp_path):
+    files = _bracket(tmp_path, _geom(), channels=3)
+    res = run_sky(files, tmp_path / "rgb", hfov_deg=70, yaw_deg=10, pitch_deg=25, roll_deg=4, pictures=False, **PLACE)
+    assert [c["channel"] for c in res["channels"]] == ["R", "G", "B"]
+    for c in res["channels"]:
+        assert c["dolp_max"] == pytest.approx(0.75, abs=0.01)
+
+
+def test_manifest_only(plain, tmp_path):
+    man = tmp_path / "m.csv"
+    man.write_text("file,angle_deg\n" + "".join(f"{f},{a}\n" for f, a in zip(plain, ANGLES)))
+    res = run_sky([], tmp_path / "man", manifest=str(man), hfov_deg=70, yaw_deg=10, pitch_deg=25, roll_deg=4,
+                  pictures=False, **PLACE)
+    assert res["dolp_max"] == pytest.approx(0.75, abs=0.01)

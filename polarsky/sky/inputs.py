@@ -49,8 +49,8 @@ def load_stokes(frames, **bracket_options) -> dict:
         Missing files, an unreadable dataset, or a bracket path that is not available.
     """
     frames = [Path(f) for f in frames]
-    if not frames:
-        raise InputError("give the frames of a bracket (or one stokes.nc)")
+    if not frames and not bracket_options.get("manifest"):
+        raise InputError("give the frames of a bracket (or one stokes.nc), or --manifest")
     for f in frames:
         if not f.is_file():
             raise InputError(f"input file {f} does not exist")

@@ -27,6 +27,9 @@ def _stride(h, w, max_side=1000):
 
 def _overlay(ax, geom, scat, bands, stride, extent_hw):
     """Sun, antisun, 90-degree band and feature rings (scat = scattering angle, strided)."""
+    from matplotlib import patheffects as pe
+
+    halo = [pe.withStroke(linewidth=3.5, foreground="black")]
     h, w = extent_hw
     lens = geom.lens
     cs = []
@@ -37,22 +40,26 @@ def _overlay(ax, geom, scat, bands, stride, extent_hw):
         lo, hi = np.nanmin(scat), np.nanmax(scat)
         if lo < 90 < hi:
             c = ax.contour(xs, ys, scat, levels=[90.0], colors="white", linewidths=2.0, linestyles="--")
-            ax.clabel(c, fmt={90.0: "90° from sun"}, fontsize=7, colors="white")
+            c.set(path_effects=[pe.withStroke(linewidth=3.5, foreground="black"), pe.Normal()])
+            for t in ax.clabel(c, fmt={90.0: "90° from sun"}, fontsize=7, colors="white"):
+                t.set_path_effects(halo)
             cs.append(c)
         for b in bands:
             if b["radius_deg"] == 0:
                 continue
             level = b["radius_deg"] if b["about"] == "sun" else 180.0 - b["radius_deg"]
             if lo < level < hi:
-                c = ax.contour(xs, ys, scat, levels=[level], colors="#ffe08a", linewidths=0.9, linestyles=":")
-                ax.clabel(c, fmt={level: b["name"]}, fontsize=6, colors="#ffe08a")
+                c = ax.contour(xs, ys, scat, levels=[level], colors="#ffe08a", linewidths=1.0, linestyles=":")
+                c.set(path_effects=[pe.withStroke(linewidth=2.5, foreground="black")])
+                for t in ax.clabel(c, fmt={level: b["name"]}, fontsize=6, colors="#ffe08a"):
+                    t.set_path_effects([pe.withStroke(linewidth=2, foreground="black")])
     for name, vec, colour in (("sun", geom.sun_cam, "#ffd21f"), ("antisun", -geom.sun_cam, "#7fd4ff")):
         u, v, ok = lens.project(vec.reshape(3, 1))
         u, v, ok = float(u[0]), float(v[0]), bool(ok[0])
         if ok and -0.5 <= u <= w - 0.5 and -0.5 <= v <= h - 0.5:
-            ax.plot([u], [v], marker="o", ms=10, mfc="none", mec=colour, mew=2)
+            ax.plot([u], [v], marker="o", ms=10, mfc="none", mec=colour, mew=2, path_effects=halo)
             ax.annotate(name, (u, v), xytext=(8, 8), textcoords="offset points", color=colour, fontsize=8,
-                        fontweight="bold")
+                        fontweight="bold", path_effects=halo)
             continue
         # outside the frame: an arrow from inside the edge toward it
         d = np.array([vec[0], vec[1]], dtype=float)
@@ -128,6 +135,11 @@ def save_sky_pictures(out_dir, *, geom, bands, observed_dolp, observed_aolp, mod
     ax.set_xlabel("column (px)   grey: not shown (not sky / invalid)", fontsize=8)
     ax.set_ylabel("row (px)")
     del first
+    # lay the figure out once, with the longest colour-key label, then keep that layout
+    cb.set_label(max((sp[5] for sp in specs), key=len))
+    ax.set_title(specs[0][6] + ("\n" + summary_line if summary_line else ""), fontsize=9)
+    fig.canvas.draw()
+    fig.set_layout_engine("none")
     for fname, arr, show, cmap_name, (vmin, vmax), key, title in specs:
         data = np.ma.masked_invalid(np.where(show, arr, np.nan))
         im.set_data(data)
@@ -138,7 +150,6 @@ def save_sky_pictures(out_dir, *, geom, bands, observed_dolp, observed_aolp, mod
         ax.set_title(title + ("\n" + summary_line if summary_line else ""), fontsize=9)
         _save(fig, out_dir / fname)
         names.append(fname)
-        fig.set_layout_engine("none")  # keep the first layout for the others (much faster)
     plt.close(fig)
     # the mask
     codes = sorted(MASK_REASONS)

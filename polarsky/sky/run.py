@@ -87,6 +87,11 @@ def prepare_sky(frames=(), *, stokes=None, when=None, lat=None, lon=None, altitu
     products = stokes if stokes is not None else load_stokes(frames, **{k: v for k, v in bracket_options.items()
                                                                         if k in BRACKET_KEYS})
     first = Path(frames[0]) if frames else None
+    if first is None and bracket_options.get("manifest"):
+        from ..ingest import read_manifest
+
+        listed = read_manifest(bracket_options["manifest"])[0]
+        first = Path(listed[0]) if listed else None
     exif = read_exif(first) if first is not None and first.suffix.lower() not in (".nc", ".nc4", ".h5") else {}
     tp = resolve_time_place(when=when, lat=lat, lon=lon, altitude_m=altitude_m, exif=exif)
     sun = sun_position(tp["when"], tp["latitude_deg"], tp["longitude_deg"], altitude_m=tp["altitude_m"],
