@@ -46,7 +46,8 @@ def _user_mask(path, shape):
     if not p.is_file():
         raise InputError(f"--sky-mask {p} does not exist")
     try:
-        m = np.asarray(iio.imread(p))
+        # read from bytes: a failed decode must not leave the file open
+        m = np.asarray(iio.imread(p.read_bytes(), extension=p.suffix.lower() or ".png"))
     except Exception as exc:  # noqa: BLE001
         raise InputError(f"--sky-mask {p} cannot be read as an image ({type(exc).__name__})") from None
     if m.ndim == 3:
