@@ -128,3 +128,16 @@ def test_bad_lens_options(kw, match):
     name = kw.pop("name")
     with pytest.raises(InputError, match=match):
         make_lens(name, 64, 48, **kw)
+
+
+def test_pixel_viewing_directions_azimuth_elevation():
+    from polarsky.sky.models import get_model
+    from polarsky.sky.skymap import SkyGeometry, model_maps
+
+    lens = make_lens("pinhole", 65, 49, hfov_deg=60)
+    m = model_maps(SkyGeometry(lens, 200.0, 30.0, 0.0, 0.0, 10.0), get_model("rayleigh"), dtype=np.float64,
+                   want=("azimuth", "elevation"))
+    assert m["azimuth"][24, 32] == pytest.approx(200.0, abs=1e-9)  # the principal point looks along the axis
+    assert m["elevation"][24, 32] == pytest.approx(30.0, abs=1e-9)
+    assert m["elevation"][0, 32] > 30 > m["elevation"][-1, 32]  # row 0 is the top of the image
+    assert m["azimuth"][24, -1] > 200 > m["azimuth"][24, 0]  # image right is clockwise (east of south-west)

@@ -258,7 +258,8 @@ def _run(products, geom, info, out_dir, *, solve, sky_model, sky_mask_path, sun_
         for k, v in pose.items():
             orientation[k] = v
 
-    maps = model_maps(geom, sky_model, 1.0)
+    maps = model_maps(geom, sky_model, 1.0,
+                      want=("dolp", "aolp", "scattering_angle", "elevation", "azimuth", "inside", "up"))
     shape = maps["dolp"]
     reason = sky_mask(inside=maps["inside"], up=maps["up"], valid=valid_all, s0=s0, dolp=dolp_mean,
                       scattering_angle_deg=maps["scattering_angle"], elevation_deg=maps["elevation"], bands=bands,
@@ -365,6 +366,8 @@ def _write_nc(path: Path, *, dolp_model, aolp_model, dolp_res, aolp_res, maps, r
                              {"units": "degree", "long_name": "angle between the sun and the viewing direction"}),
         "elevation": (yx, maps["elevation"].astype(f32),
                       {"units": "degree", "long_name": "elevation of the viewing direction above the horizon"}),
+        "azimuth": (yx, maps["azimuth"].astype(f32),
+                    {"units": "degree", "long_name": "azimuth of the viewing direction, clockwise from true north"}),
         "sky_mask_reason": (yx, reason, {"units": "1", "long_name": "why a pixel was (not) used for the fit",
                                          "flag_values": np.array(sorted(MASK_REASONS), dtype=np.uint8),
                                          "flag_meanings": " ".join(MASK_REASONS[k].replace(" ", "_").replace(",", "")

@@ -56,12 +56,13 @@ class SkyGeometry:
 
 
 def model_at_rays(model, sun_cam, up_cam, rays, placement, *,
-                  want=("shape", "aolp", "scattering_angle", "elevation", "up")):
+                  want=("shape", "aolp", "scattering_angle", "elevation", "up"), east_north_cam=None):
     """Model quantities for camera-frame ``rays`` (tuple of 3 broadcastable arrays, any length).
 
     ``want`` selects among ``shape`` (DoLP for dolp_max = 1), ``aolp`` (deg, [0, 180)),
     ``doubled`` (``cos2``, ``sin2`` of the doubled image AoLP), ``scattering_angle`` (deg),
-    ``elevation`` (deg) and ``up`` (bool, above the horizon).
+    ``elevation`` (deg), ``azimuth`` (deg from north, clockwise; needs ``east_north_cam``,
+    the east and north unit vectors in the camera frame) and ``up`` (bool, above the horizon).
 
     Returns
     -------
@@ -94,6 +95,12 @@ def model_at_rays(model, sun_cam, up_cam, rays, placement, *,
             out["scattering_angle"] = np.rad2deg(np.arccos(np.clip(cg, -1, 1)))
         if "elevation" in want:
             out["elevation"] = np.rad2deg(np.arcsin(np.clip(upd / norm, -1, 1)))
+    if "azimuth" in want:
+        e, n = ([dt.type(x) for x in v] for v in east_north_cam)
+        east = e[0] * rays[0] + e[1] * rays[1] + e[2] * rays[2]
+        north = n[0] * rays[0] + n[1] * rays[1] + n[2] * rays[2]
+        az = np.rad2deg(np.arctan2(east, north))
+        out["azimuth"] = np.where(az < 0, az + dt.type(360.0), az)
     return out
 
 
@@ -127,7 +134,8 @@ def model_maps(geom: SkyGeometry, model, dolp_max: float = 1.0, *, dtype=np.floa
         Scale of the model DoLP.
     want : tuple of str
         Which maps: ``dolp``, ``aolp`` (deg), ``scattering_angle`` (deg), ``elevation``
-        (deg), ``inside`` (pixel sees the scene), ``up`` (above the horizon).
+        (deg), ``azimuth`` (deg from north, clockwise), ``inside`` (pixel sees the scene),
+        ``up`` (above the horizon).
 
     Returns
     -------
@@ -136,7 +144,7 @@ def model_maps(geom: SkyGeometry, model, dolp_max: float = 1.0, *, dtype=np.floa
     """
     lens = geom.lens
     h, w = lens.height, lens.width
-    sun_cam, up_cam = geom.sun_cam, geom.up_cam
+    sun_cam, up_cam, rot = geom.sun_cam, geom.up_cam, geom.rotation
     out = {k: np.empty((h, w), dtype=bool if k in ("inside", "up") else dtype) for k in want}
     inner = tuple({"dolp": "shape"}.get(k, k) for k in want if k != "inside")
     step = max(1, BLOCK_PIXELS // max(w, 1))
@@ -144,7 +152,8 @@ def model_maps(geom: SkyGeometry, model, dolp_max: float = 1.0, *, dtype=np.floa
     for r0 in range(0, h, step):
         rows = slice(r0, min(h, r0 + step))
         rays, inside = lens.rays(rows, dtype)
-        q = model_at_rays(model, sun_cam, up_cam, rays, lens_placement(geom), want=inner)
+        q = model_at_rays(model, sun_cam, up_cam, rays, geom.placement, want=inner,
+                          east_north_cam=(rot.T @ [1.0, 0.0, 0.0], rot.T @ [0.0, 1.0, 0.0]))
         full = getattr(lens, "full_frame", False)
         for k in want:
             if k == "inside":
@@ -159,7 +168,3 @@ def model_maps(geom: SkyGeometry, model, dolp_max: float = 1.0, *, dtype=np.floa
             if not full:
                 dst[~inside] = False if k == "up" else np.nan
     return out
-
-
-def lens_placement(geom: SkyGeometry) -> str:
-    return geom.placement
