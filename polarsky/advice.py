@@ -117,7 +117,7 @@ def best_angle_for_region(s, *, diattenuation: float = 1.0) -> dict:
     if not s[0] > 0:
         raise InputError("the region holds no valid light (S0 <= 0); choose a region with valid pixels")
     lin = float(np.hypot(s[1], s[2]))
-    dolp = min(lin / s[0], 1.0)
+    dolp = float(min(lin / s[0], 1.0))
     aolp = float(np.degrees(0.5 * np.arctan2(s[2], s[1])) % 180.0)
     best = (aolp + 90.0) % 180.0
     def stops(d):
@@ -129,7 +129,7 @@ def best_angle_for_region(s, *, diattenuation: float = 1.0) -> dict:
         "region_aolp_deg": round(aolp, 3),
         "reduction_stops": round(stops(diattenuation), 4),
         "reduction_stops_ideal": round(stops(1.0), 4),
-        "transmission_at_best": round(0.5 * (1 - diattenuation * dolp), 5),
+        "transmission_at_best": round(float(0.5 * (1 - diattenuation * dolp)), 5),
     }
 
 

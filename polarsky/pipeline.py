@@ -41,8 +41,10 @@ __all__ = [
 
 #: Full-well capacity assumed when no gain is given (electrons at full scale).
 DEFAULT_FULL_WELL_E = 20000.0
+#: Median relative fit residual above which the frames are said to disagree.
+RESIDUAL_WARNING = 0.03
 #: Target number of float32 values per frame in one row block.
-BLOCK_VALUES = 1 << 21
+BLOCK_VALUES = 1 << 20
 
 
 @dataclass
@@ -135,42 +137,68 @@ def estimate_block(intensities, valid, w, *, weights=None, noise=None, solve=Non
     if wm.ndim == 2:
         wm = np.broadcast_to(wm, (c,) + wm.shape)
     source = noise.resolved_source(n)
-    out = {name: np.empty(data.shape[1:], np.float32) for name in
+    shape = data.shape[1:]
+    out = {name: np.empty(shape, np.float32) for name in
            ("S0", "S1", "S2", "dolp", "dolp_unbiased", "aolp", "sigma_dolp", "sigma_aolp")}
-    if n > 3:
-        out["residual"] = np.empty(data.shape[1:], np.float32)
+    out["residual"] = np.empty(shape, np.float32) if n > 3 else None
+    valid = np.broadcast_to(np.asarray(valid, dtype=bool), shape)
+    fw = DEFAULT_FULL_WELL_E if noise.gain_e_per_dn is None else noise.gain_e_per_dn * full_scale
+    q_var = (noise.read_noise_dn ** 2 + 1.0 / 12.0) / full_scale ** 2
     for ci in range(c):
         frames = data[:, ci]
         s = np.empty((3,) + frames.shape[1:], np.float32)
+        cov = sk.stokes_covariance(wm[ci], weights)
+        var = np.empty(frames.shape[1:], np.float32)
+        res = out["residual"][ci] if n > 3 else np.empty((1,) * (frames.ndim - 1), np.float32)
         if solve is not None:
             sk.fit_stokes_per_pixel(frames, solve[ci], out=s)
+            _numpy_block(frames, s, ~valid[ci], wm[ci], out, ci, res, var, source, noise, full_scale, srgb)
         else:
-            sk.fit_stokes(frames, wm[ci], weights=weights, out=s)
-        cov = sk.stokes_covariance(wm[ci], weights)
-        if n > 3:
-            res = sk.residual_rms(frames, wm[ci], s)
-            out["residual"][ci] = res
-        if source == "residual":
-            var = res * res
-            if smooth_residual and var.shape[0] >= 5 and var.shape[1] >= 5:
-                import cv2
+            from . import _kernels
 
-                var = cv2.blur(var, (5, 5), borderType=cv2.BORDER_REFLECT)
-        else:
-            mean_i = frames.mean(axis=0)
-            var = noise.variance(mean_i, full_scale, srgb)
-        dolp, aolp = sk.dolp_aolp(s, out_dolp=out["dolp"][ci], out_aolp=out["aolp"][ci])
-        sig_p, sig_psi, sig_rice = sk.sigma_dolp_aolp(s, var, cov)
-        out["sigma_dolp"][ci] = sig_p
-        out["sigma_aolp"][ci] = sig_psi
-        out["dolp_unbiased"][ci] = sk.dolp_debiased_plaszczynski2014(dolp, sig_rice)
+            npx = int(np.prod(frames.shape[1:]))
+            _kernels.pass_stokes(
+                frames.reshape(n, npx), (~valid[ci]).reshape(npx),
+                sk.solve_matrix(wm[ci], weights).astype(np.float32), wm[ci].astype(np.float32),
+                s.reshape(3, npx), out["dolp"][ci].reshape(npx), out["aolp"][ci].reshape(npx),
+                res.reshape(-1), var.reshape(npx),
+                1 if source == "residual" else 0, np.float32(1.0 / fw), np.float32(q_var), bool(srgb))
+        if source == "residual" and smooth_residual and var.ndim == 2 and min(var.shape) >= 5:
+            import cv2
+
+            finite = np.isfinite(var)
+            v0 = np.where(finite, var, 0).astype(np.float32)
+            num = cv2.blur(v0, (5, 5), borderType=cv2.BORDER_REFLECT)
+            den = cv2.blur(finite.astype(np.float32), (5, 5), borderType=cv2.BORDER_REFLECT)
+            with np.errstate(invalid="ignore", divide="ignore"):
+                var = np.where(finite, num / den, np.nan).astype(np.float32)
+        from . import _kernels
+
+        c6 = np.array([cov[0, 0], cov[1, 1], cov[2, 2], cov[0, 1], cov[0, 2], cov[1, 2]], np.float32)
+        npx = int(np.prod(frames.shape[1:]))
+        _kernels.pass_uncertainty(s.reshape(3, npx), out["dolp"][ci].reshape(npx), var.reshape(npx), c6,
+                                  out["sigma_dolp"][ci].reshape(npx), out["sigma_aolp"][ci].reshape(npx),
+                                  out["dolp_unbiased"][ci].reshape(npx))
         out["S0"][ci], out["S1"][ci], out["S2"][ci] = s
-    good = np.asarray(valid, dtype=bool) & (out["S0"] > 0)
-    bad = ~good
-    for name, arr in out.items():
-        arr[bad] = np.nan
-    out["valid"] = good
+    if out["residual"] is None:
+        del out["residual"]
+    out["valid"] = valid & np.isfinite(out["S0"])
     return out
+
+
+def _numpy_block(frames, s, invalid, w, out, ci, res, var, source, noise, full_scale, srgb):
+    """Reference numpy path (used with per-pixel solve matrices): fills dolp, aolp, residual, var."""
+    n = frames.shape[0]
+    bad = invalid | ~(s[0] > 0)
+    s[:, bad] = np.nan
+    sk.dolp_aolp(s, out_dolp=out["dolp"][ci], out_aolp=out["aolp"][ci])
+    if n > 3:
+        res[...] = sk.residual_rms(frames, w, s)
+    if source == "residual":
+        var[...] = res * res
+    else:
+        var[...] = noise.variance(frames.mean(axis=0), full_scale, srgb)
+    var[bad] = np.nan
 
 
 def analysis_matrices(bracket: Bracket, settings: Settings) -> tuple[np.ndarray, dict]:
@@ -288,7 +316,7 @@ class NetCDFSink:
 class PreviewSink:
     """Decimated copies (every ``step``-th row and column) for pictures, plus frame 0."""
 
-    def __init__(self, shape, max_side: int = 1600):
+    def __init__(self, shape, max_side: int = 1024):
         h, w = shape
         self.step = max(1, int(np.ceil(max(h, w) / max_side)))
         self.arrays: dict = {}
@@ -586,6 +614,12 @@ def run_stokes(frames=(), out_dir=None, *, pictures: bool = True, **options) -> 
             **stats.summary(bracket.channels),
             "outputs": ["stokes.nc", "summary.json"] + [p.name for p in pics],
         }
+        med = summary.get("residual_relative_median")
+        if med is not None and med > RESIDUAL_WARNING:
+            warnings.warn(f"frames disagree with the polarizer model: median fit residual {med * 100:.1f}% of S0 "
+                          f"(99th percentile {summary['residual_relative_p99'] * 100:.1f}%); see residual.png for "
+                          "motion, a passing cloud or exposure drift" + ("" if settings.align else ", or try --align"),
+                          PolarskyWarning, stacklevel=2)
         summary["timing_s"] = {
             "decode": round(t_decode, 4),
             "align": round(info["timing_s"]["align"], 4),

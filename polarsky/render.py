@@ -40,7 +40,7 @@ def save_figure(fig, path) -> Path:
     from matplotlib.backends.backend_agg import FigureCanvasAgg
 
     FigureCanvasAgg(fig)
-    fig.savefig(path, dpi=110)
+    fig.savefig(path, dpi=110, pil_kwargs={"compress_level": 3})
     return Path(path)
 
 

@@ -127,3 +127,27 @@ def test_angles_option_and_count_mismatch(tmp_path):
     np.testing.assert_allclose(b.angles_deg, [10, 55, 100])
     with pytest.raises(InputError, match="2 angle"):
         load_bracket(paths, angles_deg="0,45")
+
+
+def test_exposure_normalization_from_exif(tmp_path):
+    # JPEG frames whose EXIF ExposureTime/ISO/FNumber differ: values are divided by the relative
+    # exposure t * ISO / N^2 (common practice: exposure value arithmetic).
+    from fractions import Fraction
+
+    from PIL import Image, TiffImagePlugin
+
+    exposures = [(Fraction(1, 100), 100, 4.0), (Fraction(1, 50), 100, 4.0), (Fraction(1, 100), 200, 4.0)]
+    paths = []
+    for k, (t, iso, fn) in enumerate(exposures):
+        im = Image.fromarray(np.full((8, 8, 3), 100, np.uint8))
+        exif = im.getexif()
+        ifd = exif.get_ifd(0x8769)
+        ifd[0x829A] = TiffImagePlugin.IFDRational(t.numerator, t.denominator)
+        ifd[0x8827] = iso
+        ifd[0x829D] = TiffImagePlugin.IFDRational(int(fn * 10), 10)
+        p = tmp_path / f"e_{k * 60:03d}deg.jpg"
+        im.save(p, exif=exif.tobytes(), quality=95)
+        paths.append(p)
+    b = load_bracket(paths)
+    assert b.exposure_source == "exif"
+    np.testing.assert_allclose(b.exposure_scale, [1.0, 2.0, 2.0])

@@ -110,3 +110,16 @@ def test_debiased_dolp_removes_noise_bias(tmp_path):
     unb = float(np.mean(ds["dolp_unbiased"].values))
     assert raw > 0.0104  # Rice mean at p0 = 2.5 sigma is about 2.7 sigma
     assert abs(unb - 0.01) < 0.4 * abs(raw - 0.01)
+
+
+def test_residual_warns_when_frames_disagree(tmp_path):
+    # a "passing cloud": one frame 30% brighter than the polarizer model allows
+    s = smooth_scene(16, 16)
+    angles = [0, 45, 90, 135]
+    frames = render_frames(s, angles)
+    frames[2] *= 1.3
+    paths = write_tiffs(tmp_path, frames, angles)
+    with pytest.warns(Warning, match="frames disagree with the polarizer model"):
+        summary = run_stokes(paths, tmp_path / "out")
+    assert summary["residual_relative_median"] > 0.03
+    assert (tmp_path / "out" / "residual.png").is_file()
