@@ -66,6 +66,9 @@ _GEOMETRY = [
                  metavar="PNG", help="Image of the frame size; non-zero pixels are sky the fit may use."),
     click.option("--model", type=click.Choice(list(SKY_MODELS)), default="rayleigh", show_default=True,
                  help="Clear-sky polarization model."),
+    click.option("--neutral-point-deg", type=float, default=20.0, show_default=True,
+                 help="--model neutral-points: distance of the Babinet/Brewster points from the sun and of the "
+                      "Arago/fourth points from the antisun, degrees."),
     click.option("--sun-mask-deg", type=float, default=10.0, show_default=True,
                  help="Radius of the sun disk and aureole left out of the fit, degrees."),
     click.option("--min-elevation-deg", type=float, default=0.0, show_default=True,
@@ -84,7 +87,8 @@ def geometry_kwargs(kw: dict) -> dict:
     out = {k: kw.pop(k) for k in ("when", "lat", "lon", "altitude_m", "pressure_hpa", "temperature_c", "delta_t_s",
                                   "lens", "hfov_deg", "focal_px", "focal_mm", "sensor_width_mm", "fov_deg",
                                   "circle_radius_px", "yaw_deg", "pitch_deg", "roll_deg", "polarizer",
-                                  "sky_mask_path", "model", "sun_mask_deg", "min_elevation_deg")}
+                                  "sky_mask_path", "model", "neutral_point_deg", "sun_mask_deg",
+                                  "min_elevation_deg")}
     out["distortion"] = parse_floats(kw.pop("distortion"), "--distortion")
     out["circle_center_px"] = parse_floats(kw.pop("circle_center_px"), "--circle-center-px", 2)
     return out

@@ -95,16 +95,24 @@ def test_calibrate_tie_is_reported(frames, tmp_path, capsys):
     assert rc == 2 and "cannot be told apart" in err and not (tmp_path / "c.nc").exists()
 
 
-def test_sky_subprocess(frames, tmp_path):
-    cmd = [sys.executable, "-m", "cli.main", "sky", *frames, *GEO, "--out", str(tmp_path / "sp"), "--json",
+@pytest.fixture(scope="module")
+def stokes_nc(frames, tmp_path_factory):
+    """The bracket's stokes.nc, made in-process (the subprocesses then skip the estimate)."""
+    out = tmp_path_factory.mktemp("st")
+    assert main(["stokes", *frames, "--out", str(out)]) == 0
+    return str(out / "stokes.nc")
+
+
+def test_sky_subprocess(stokes_nc, tmp_path):
+    cmd = [sys.executable, "-m", "cli.main", "sky", stokes_nc, *GEO, "--out", str(tmp_path / "sp"), "--json",
            "--no-pictures"]
     p = subprocess.run(cmd, cwd=ROOT, capture_output=True, text=True, timeout=120)
     assert p.returncode == 0, p.stderr
     assert json.loads(p.stdout)["sky_pixels"] > 0
 
 
-def test_calibrate_sky_subprocess(frames, tmp_path):
-    cmd = [sys.executable, "-m", "cli.main", "calibrate", "sky", *frames, *GEO, "--out", str(tmp_path / "c.nc")]
+def test_calibrate_sky_subprocess(stokes_nc, tmp_path):
+    cmd = [sys.executable, "-m", "cli.main", "calibrate", "sky", stokes_nc, *GEO, "--out", str(tmp_path / "c.nc")]
     p = subprocess.run(cmd, cwd=ROOT, capture_output=True, text=True, timeout=120)
     assert p.returncode == 0, p.stderr
     assert "analyzer angle offset" in p.stdout and (tmp_path / "c.nc").is_file()

@@ -254,3 +254,25 @@ def test_manifest_only(plain, tmp_path):
     res = run_sky([], tmp_path / "man", manifest=str(man), hfov_deg=70, yaw_deg=10, pitch_deg=25, roll_deg=4,
                   pictures=False, **PLACE)
     assert res["dolp_max"] == pytest.approx(0.75, abs=0.01)
+
+
+def test_neutral_point_model_fits_a_sky_with_an_arago_point(tmp_path):
+    # an invented evening sky rendered with the neutral-point model (Berry et al. 2004): the
+    # camera looks at the antisolar side, where the Arago point sits ~20 deg above the antisun
+    from polarsky.sky.synth import render_sky_stokes
+    from polarsky.stokes import dolp_aolp
+
+    when = "2024-06-21T20:00:00+02:00"
+    sun = sun_position(parse_when(when), LAT, LON)
+    lens = make_lens("pinhole", 64, 48, hfov_deg=80)
+    g = SkyGeometry(lens, (sun["azimuth_deg"] + 180) % 360, 20.0, 0.0, sun["azimuth_deg"], sun["elevation_deg"])
+    s = render_sky_stokes(g, model="neutral-points")
+    d, a = dolp_aolp(s)
+    prods = {"S": s[:, None], "dolp": d[None], "aolp": a[None], "valid": np.isfinite(d)[None], "channels": ["L"],
+             "attrs": {}}
+    kw = dict(stokes=prods, when=when, lat=LAT, lon=LON, hfov_deg=80, yaw_deg=g.yaw_deg, pitch_deg=20.0,
+              roll_deg=0.0, pictures=False, sun_mask_deg=5.0)
+    bdl = run_sky([], tmp_path / "n", model="neutral-points", **kw)
+    ray = run_sky([], tmp_path / "r", model="rayleigh", **kw)
+    assert bdl["model"] == "neutral-points" and bdl["neutral_point_deg"] == pytest.approx(20.0)
+    assert bdl["aolp_rms_deg"] < 0.1 < ray["aolp_rms_deg"]

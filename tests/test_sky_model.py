@@ -87,3 +87,47 @@ def test_model_registry():
     assert "rayleigh" in SKY_MODELS
     with pytest.raises(InputError, match="sky model 'nope'"):
         get_model("nope")
+
+
+# ---- Berry, Dennis & Lee (2004) neutral-point model ---------------------------------------
+def _sky(model, delta=20.0, sun_el=30.0):
+    lens = make_lens("fisheye-equidistant", 201, 201, fov_deg=360)
+    g = SkyGeometry(lens, 0.0, 90.0, 0.0, 135.0, sun_el, "front")
+    return g, model_maps(g, get_model(model, **({"neutral_point_deg": delta} if model != "rayleigh" else {})),
+                         1.0, dtype=np.float64)
+
+
+def test_neutral_points_reduce_to_rayleigh_without_splitting():
+    # Berry, Dennis & Lee (2004), New J. Phys. 6, 162: the singularity model tends to the
+    # Rayleigh pattern w_R as the neutral points merge into the sun and antisun
+    _, a = _sky("rayleigh")
+    _, b = _sky("neutral-points", delta=0.0)
+    ok = a["inside"]
+    np.testing.assert_allclose(((a["aolp"] - b["aolp"] + 90) % 180 - 90)[ok], 0, atol=1e-7)
+    np.testing.assert_allclose(a["dolp"][ok], b["dolp"][ok], atol=1e-9)
+
+
+def _at(geom, az, el, model="neutral-points", delta=20.0):
+    from polarsky.geometry import enu_from_az_el
+    from polarsky.sky.skymap import model_at_rays
+
+    v = geom.rotation.T @ enu_from_az_el(az, el)
+    m = get_model(model, **({"neutral_point_deg": delta} if model != "rayleigh" else {}))
+    return model_at_rays(m, geom.sun_cam, geom.up_cam, tuple(np.atleast_1d(c) for c in v), "front",
+                         want=("shape", "aolp"))
+
+
+@pytest.mark.parametrize("name,az,el", [("Babinet", 135.0, 50.0), ("Brewster", 135.0, 10.0),
+                                        ("Arago", 315.0, -10.0), ("fourth", 315.0, -50.0)])
+def test_neutral_points_are_zeros_of_index_one_half(name, az, el):
+    # the four neutral points (Berry et al. 2004; AMS Glossary 'Arago point'): 20 deg above and
+    # below the sun (elevation 30) and the antisun (elevation -30) on the solar vertical
+    g, _ = _sky("neutral-points")
+    assert _at(g, az, el)["shape"][0] < 1e-9
+    assert _at(g, az, el, model="rayleigh")["shape"][0] > 0.05  # sin^2 20 / (1 + cos^2 20) = 0.062
+    # the E-line field turns by half a turn around the point: index +1/2
+    t = np.linspace(0, 2 * np.pi, 73)
+    r = 2.0
+    ring = [_at(g, az + r * np.cos(u) / np.cos(np.deg2rad(el)), el + r * np.sin(u))["aolp"][0] for u in t]
+    turns = np.sum((np.diff(np.unwrap(np.deg2rad(ring) * 2)) / 2)) / (2 * np.pi)
+    assert abs(turns) == pytest.approx(0.5, abs=0.02)

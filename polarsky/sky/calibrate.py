@@ -63,7 +63,7 @@ def split_brackets(frames, bracket_size: int | None) -> list[list[str]]:
 
 
 def run_sky_calibration(brackets, out_path, *, poses=None, solve=(), reference_dolp_max=None, stokes=None,
-                        sky_mask_path=None, model="rayleigh", sun_mask_deg: float = 10.0,
+                        sky_mask_path=None, model="rayleigh", neutral_point_deg: float = 20.0, sun_mask_deg: float = 10.0,
                         min_elevation_deg: float = 0.0, max_fit_samples: int = 20_000, seed: int = 0,
                         **options) -> dict:
     """Fit the analyzer angle offset per channel from clear-sky brackets; write ``out_path``.
@@ -104,7 +104,7 @@ def run_sky_calibration(brackets, out_path, *, poses=None, solve=(), reference_d
         raise InputError(f"{len(poses)} --pose values for {n_b} bracket(s); give one --pose YAW,PITCH,ROLL per bracket")
     if reference_dolp_max is not None and not (0 < float(reference_dolp_max) <= 1):
         raise InputError(f"--reference-dolp-max {reference_dolp_max} must lie in (0, 1]")
-    sky_model = get_model(model)
+    sky_model = get_model(model, **({"neutral_point_deg": neutral_point_deg} if model == "neutral-points" else {}))
     bands = feature_bands(sun_radius_deg=sun_mask_deg)
     samples, infos, fitted_data = [], [], []
     channels = None

@@ -154,7 +154,7 @@ def _jsonable(x):
 
 
 def run_sky(frames, out_dir, *, stokes=None, solve=(), sky_mask_path=None, model="rayleigh",
-            sun_mask_deg: float = 10.0, min_elevation_deg: float = 0.0, pictures: bool = True,
+            neutral_point_deg: float = 20.0, sun_mask_deg: float = 10.0, min_elevation_deg: float = 0.0, pictures: bool = True,
             max_fit_samples: int = 20_000, seed: int = 0, **options) -> dict:
     """Compare a sky bracket with the clear-sky model; write sky.json, sky.nc and pictures.
 
@@ -172,6 +172,9 @@ def run_sky(frames, out_dir, *, stokes=None, solve=(), sky_mask_path=None, model
         PNG of the frame size, non-zero = sky the fit may use.
     model : str
         Sky model name (:data:`polarsky.sky.models.SKY_MODELS`).
+    neutral_point_deg : float
+        For ``model="neutral-points"``: distance of each neutral point from the sun or
+        antisun, degrees.
     sun_mask_deg : float
         Radius of the sun-disk-and-aureole mask, degrees.
     min_elevation_deg : float
@@ -187,7 +190,9 @@ def run_sky(frames, out_dir, *, stokes=None, solve=(), sky_mask_path=None, model
     """
     out_dir = Path(out_dir)
     solve = parse_solve(",".join(solve) if isinstance(solve, (list, tuple)) else solve)
-    sky_model = get_model(model)
+    sky_model = get_model(model, **({"neutral_point_deg": neutral_point_deg} if model == "neutral-points" else {}))
+    if not (0 <= neutral_point_deg < 60):
+        raise InputError(f"--neutral-point-deg {neutral_point_deg:g} must lie in [0, 60)")
     if not (0 <= sun_mask_deg < 90):
         raise InputError(f"--sun-mask-deg {sun_mask_deg:g} must lie in [0, 90)")
     from ..pipeline import OutputStage
@@ -313,6 +318,7 @@ def _run(products, geom, info, out_dir, *, solve, sky_model, sky_mask_path, sun_
         "roll_deg": geom.roll_deg,
         "polarizer": geom.placement,
         "model": sky_model.name,
+        "neutral_point_deg": (float(np.rad2deg(sky_model.delta)) if hasattr(sky_model, "delta") else None),
         "orientation": orientation,
         "channels": per_channel,
         "sun_in_frame": sun_in,

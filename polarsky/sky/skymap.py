@@ -71,9 +71,9 @@ def model_at_rays(model, sun_cam, up_cam, rays, placement, *,
     dt = np.result_type(rays[0], rays[1], rays[2])
     out = {}
     if "shape" in want:
-        out["shape"] = model.shape(sun_cam, rays)
+        out["shape"] = model.shape(sun_cam, rays, up=up_cam)
     if "aolp" in want or "doubled" in want:
-        e = model.evector(sun_cam, rays, need_z=(placement != "front"))
+        e = model.evector(sun_cam, rays, need_z=(placement != "front"), up=up_cam)
         dx, dup = image_direction_from_evector(e, rays, placement)
         if "doubled" in want:
             n2 = dx * dx + dup * dup
