@@ -36,7 +36,7 @@ from .features import feature_bands
 from .fit import fit_dolp_max, sky_mask
 from .models import get_model
 from .orient import TIE_CORRELATION, fit_orientation, parse_solve, sample_bracket
-from .run import SUN_CAUTION, prepare_sky
+from .run import SUN_CAUTION, _user_mask, prepare_sky
 from .skymap import model_maps
 
 __all__ = ["split_brackets", "run_sky_calibration"]
@@ -124,8 +124,6 @@ def run_sky_calibration(brackets, out_path, *, poses=None, solve=(), reference_d
         valid = np.all(products["valid"], axis=0)
         s0 = np.nanmean(products["S"][0], axis=0)
         dmean = np.nanmean(dolp, axis=0)
-        from .run import _user_mask
-
         user = _user_mask(sky_mask_path, (h, w)) if sky_mask_path else None
         if solve:
             usable = valid & np.isfinite(dmean) & (dmean <= 1) & (s0 >= 0.25 * float(np.nanmedian(s0[valid])))

@@ -157,8 +157,8 @@ def feature_bands(*, sun_radius_deg: float = 10.0, margin_deg: float = 1.0,
                   wavelengths_nm=(400.0, 700.0), water_temperature_k: float = 283.15) -> list[dict]:
     """Angular bands to mask: sun disk + aureole, the 22/46 halos, primary/secondary bows.
 
-    Each band is ``{"name", "about": "sun"|"antisun", "inner_deg", "outer_deg",
-    "radius_deg"}`` where the angles are distances from the sun (or antisolar point).
+    Each band is ``{"name", "kind": "sun"|"halo"|"rainbow", "about": "sun"|"antisun",
+    "inner_deg", "outer_deg", "radius_deg"}`` where the angles are distances from the sun (or antisolar point).
     The band spans the ring radius over ``wavelengths_nm`` plus ``margin_deg`` each side
     (halos extend further outward, so their outer margin is doubled).
     """
@@ -168,16 +168,16 @@ def feature_bands(*, sun_radius_deg: float = 10.0, margin_deg: float = 1.0,
     n_w = refractive_index_water_iapws1997(np.array([lo, hi]) / 1000.0, water_temperature_k, 999.7) / N_AIR
     n_ice_mid = refractive_index_ice_warren2008(550.0) / N_AIR
     n_w_mid = refractive_index_water_iapws1997(0.55, water_temperature_k, 999.7) / N_AIR
-    bands = [{"name": "sun and aureole", "about": "sun", "inner_deg": 0.0, "outer_deg": float(sun_radius_deg),
+    bands = [{"name": "sun and aureole", "kind": "sun", "about": "sun", "inner_deg": 0.0, "outer_deg": float(sun_radius_deg),
               "radius_deg": 0.0}]
     for apex, label in ((60.0, "22-degree halo"), (90.0, "46-degree halo")):
         r = halo_radius_deg(n_ice, apex)
-        bands.append({"name": label, "about": "sun", "inner_deg": float(np.min(r)) - margin_deg,
+        bands.append({"name": label, "kind": "halo", "about": "sun", "inner_deg": float(np.min(r)) - margin_deg,
                       "outer_deg": float(np.max(r)) + 2 * margin_deg,
                       "radius_deg": float(halo_radius_deg(n_ice_mid, apex))})
     for k, label in ((1, "primary rainbow"), (2, "secondary rainbow")):
         r = rainbow_radius_deg(n_w, k)
-        bands.append({"name": label, "about": "antisun", "inner_deg": float(np.min(r)) - margin_deg,
+        bands.append({"name": label, "kind": "rainbow", "about": "antisun", "inner_deg": float(np.min(r)) - margin_deg,
                       "outer_deg": float(np.max(r)) + margin_deg,
                       "radius_deg": float(rainbow_radius_deg(n_w_mid, k))})
     return bands

@@ -65,8 +65,7 @@ def sky_mask(*, inside, up, valid, s0, dolp, scattering_angle_deg, elevation_deg
     code = {"sun": 4, "halo": 5, "rainbow": 6}
     for b in bands:
         dist = scattering_angle_deg if b["about"] == "sun" else 180.0 - scattering_angle_deg
-        kind = "sun" if b["radius_deg"] == 0 else ("halo" if "halo" in b["name"] else "rainbow")
-        order.append(((dist >= b["inner_deg"]) & (dist <= b["outer_deg"]), code[kind]))
+        order.append(((dist >= b["inner_deg"]) & (dist <= b["outer_deg"]), code[b["kind"]]))
     if user_mask is not None:
         order.append((~user_mask, 8))
     for cond, c in order:

@@ -45,7 +45,7 @@ def _overlay(ax, geom, scat, bands, stride, extent_hw):
                 t.set_path_effects(halo)
             cs.append(c)
         for b in bands:
-            if b["radius_deg"] == 0:
+            if b["kind"] == "sun":
                 continue
             level = b["radius_deg"] if b["about"] == "sun" else 180.0 - b["radius_deg"]
             if lo < level < hi:
