@@ -276,3 +276,13 @@ def test_neutral_point_model_fits_a_sky_with_an_arago_point(tmp_path):
     ray = run_sky([], tmp_path / "r", model="rayleigh", **kw)
     assert bdl["model"] == "neutral-points" and bdl["neutral_point_deg"] == pytest.approx(20.0)
     assert bdl["aolp_rms_deg"] < 0.1 < ray["aolp_rms_deg"]
+
+
+def test_calibration_is_absolute_when_the_estimate_used_an_offset(tmp_path):
+    # frames made with a true offset of 3 deg, estimated with --angle-offset 1: the file must
+    # still hold 3 (relative to the nominal angles), not the 2 that remain
+    files = _bracket(tmp_path, _geom(), analyzer_offset_deg=3.0)
+    res = run_sky_calibration([files], tmp_path / "cal.nc", angle_offset_deg=1.0, hfov_deg=70, yaw_deg=10,
+                              pitch_deg=25, roll_deg=4, **PLACE)
+    assert res["offset_already_applied_deg"] == [1.0]
+    assert res["angle_offset_deg"][0] == pytest.approx(3.0, abs=0.1)

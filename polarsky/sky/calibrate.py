@@ -42,6 +42,28 @@ from .skymap import model_maps
 __all__ = ["split_brackets", "run_sky_calibration"]
 
 
+def _applied_analysis(attrs: dict, n_channels: int):
+    """Analyzer offset and diattenuation per channel that the Stokes estimate already used."""
+    import json
+
+    info = attrs.get("analysis")
+    if isinstance(info, str):
+        try:
+            info = json.loads(info)
+        except ValueError:
+            info = None
+    off = np.zeros(n_channels)
+    dia = np.ones(n_channels)
+    if isinstance(info, dict):
+        for key, arr in (("angle_offset_deg", off), ("diattenuation", dia)):
+            vals = info.get(key)
+            if vals is not None:
+                v = np.asarray(vals, dtype=np.float64).ravel()
+                if v.size in (1, n_channels):
+                    arr[:] = v
+    return off, dia
+
+
 def split_brackets(frames, bracket_size: int | None) -> list[list[str]]:
     """Group FRAME... into brackets: ``bracket_size`` consecutive frames each, or one
     bracket per ``stokes.nc``; all frames form one bracket by default."""
@@ -108,6 +130,7 @@ def run_sky_calibration(brackets, out_path, *, poses=None, solve=(), reference_d
     bands = feature_bands(sun_radius_deg=sun_mask_deg)
     samples, infos, fitted_data = [], [], []
     channels = None
+    prior_offsets, prior_diatt = [], []
     for i in range(n_b):
         opts = dict(options)
         if poses is not None:
@@ -121,6 +144,9 @@ def run_sky_calibration(brackets, out_path, *, poses=None, solve=(), reference_d
                              f"{','.join(channels)}; calibrate one camera set-up at a time")
         dolp, aolp = products["dolp"], products["aolp"]
         c, h, w = dolp.shape
+        po, pd = _applied_analysis(products.get("attrs", {}), c)
+        prior_offsets.append(po)
+        prior_diatt.append(pd)
         valid = np.all(products["valid"], axis=0)
         s0 = np.nanmean(products["S"][0], axis=0)
         dmean = np.nanmean(dolp, axis=0)
@@ -155,7 +181,13 @@ def run_sky_calibration(brackets, out_path, *, poses=None, solve=(), reference_d
             "roll out of --solve, or use a wider field of view; no calibration file was written")
     for msg in fit["messages"]:
         warnings.warn(msg, PolarskyWarning, stacklevel=2)
-    offsets = np.array(fit["offsets_deg"], dtype=np.float64)
+    # the estimate may already have used an offset (--angle-offset, a calibration): the file
+    # holds the total offset relative to the nominal analyzer angles
+    prior = np.asarray(prior_offsets[0], dtype=np.float64)
+    if any(not np.allclose(p, prior) for p in prior_offsets[1:]):
+        raise InputError("the brackets were estimated with different analyzer angle offsets; estimate them "
+                         "alike (same --angle-offset / --calibration) before calibrating together")
+    offsets = np.array(fit["offsets_deg"], dtype=np.float64) + prior
     offsets_sigma = np.array([np.nan if s is None else s for s in fit["offsets_sigma_deg"]], dtype=np.float64)
     # the DoLP scale per channel, over all brackets' sky pixels
     dmax, dmax_sigma = [], []
@@ -170,8 +202,9 @@ def run_sky_calibration(brackets, out_path, *, poses=None, solve=(), reference_d
     diatt = diatt_sigma = None
     if reference_dolp_max is not None:
         ref = float(reference_dolp_max)
-        diatt = np.clip(dmax / ref, 0.0, 1.0)
-        diatt_sigma = dmax_sigma / ref
+        d_prev = np.asarray(prior_diatt[0], dtype=np.float64)
+        diatt = np.clip(d_prev * dmax / ref, 0.0, 1.0)
+        diatt_sigma = d_prev * dmax_sigma / ref
         if np.any(dmax / ref > 1.0 + 3 * diatt_sigma):
             warnings.warn(f"the fitted dolp_max ({', '.join(f'{x:.3f}' for x in dmax)}) exceeds "
                           f"--reference-dolp-max {ref:g}; the diattenuation was clipped at 1", PolarskyWarning,
@@ -190,6 +223,7 @@ def run_sky_calibration(brackets, out_path, *, poses=None, solve=(), reference_d
                  "when": inf["when"]} for inf in infos],
         "polarizer": samples[0].geom.placement,
         "dolp_max_fitted": dmax.tolist(),
+        "offset_already_applied_deg": prior.tolist(),
         "sky_pixels": int(fit["samples"]),
     }
     unc = {"angle_offset_deg": offsets_sigma}
@@ -211,6 +245,7 @@ def run_sky_calibration(brackets, out_path, *, poses=None, solve=(), reference_d
         "diattenuation_sigma": None if diatt_sigma is None else diatt_sigma.tolist(),
         "dolp_max": dmax.tolist(),
         "dolp_max_sigma": dmax_sigma.tolist(),
+        "offset_already_applied_deg": prior.tolist(),
         "brackets": n_b,
         "poses": poses_out,
         "parameters": fit["parameters"],
