@@ -286,3 +286,35 @@ def test_calibration_is_absolute_when_the_estimate_used_an_offset(tmp_path):
                               pitch_deg=25, roll_deg=4, **PLACE)
     assert res["offset_already_applied_deg"] == [1.0]
     assert res["angle_offset_deg"][0] == pytest.approx(3.0, abs=0.1)
+
+
+def test_time_and_place_from_exif_of_jpeg_frames(tmp_path):
+    from PIL import Image
+    from PIL.TiffImagePlugin import IFDRational
+
+    frames = render_sky_bracket(_geom(), ANGLES)
+    paths = []
+    for k, a in enumerate(ANGLES):
+        lin = np.clip(frames[k, 0], 0, 1)
+        srgb = np.where(lin <= 0.0031308, 12.92 * lin, 1.055 * lin ** (1 / 2.4) - 0.055)  # IEC 61966-2-1
+        img = Image.fromarray(np.round(srgb * 255).astype(np.uint8))
+        ex = Image.Exif()
+        e = ex.get_ifd(0x8769)
+        e[0x9003], e[0x9011] = "2024:06:21 17:30:00", "+02:00"
+        g = ex.get_ifd(0x8825)
+        g[1], g[2], g[3], g[4] = "N", (47.0, 0.0, 0.0), "E", (8.0, 0.0, 0.0)
+        g[5], g[6] = b"\x00", IFDRational(400, 1)
+        p = tmp_path / f"sky_{a:03d}deg.jpg"
+        img.save(p, exif=ex, quality=98)
+        paths.append(str(p))
+    res = run_sky(paths, tmp_path / "e", hfov_deg=70, yaw_deg=10, pitch_deg=25, roll_deg=4, pictures=False)
+    assert res["time_source"] == "exif" and res["place_source"] == "exif"
+    assert res["altitude_m"] == pytest.approx(400.0)
+    ref = sun_position(parse_when(WHEN), LAT, LON, altitude_m=400.0)
+    assert res["sun_azimuth_deg"] == pytest.approx(ref["azimuth_deg"], abs=1e-9)
+    assert res["aolp_rms_deg"] < 3.0
+
+
+def test_unknown_option_is_a_programming_error(plain, tmp_path):
+    with pytest.raises(TypeError, match="unknown option"):
+        run_sky(plain, tmp_path / "u", hfov=70, **PLACE)

@@ -81,6 +81,9 @@ def prepare_sky(frames=(), *, stokes=None, when=None, lat=None, lon=None, altitu
     info : dict
         Sun, time/place and lens facts for the JSON output.
     """
+    unknown = set(bracket_options) - set(BRACKET_KEYS) - {"progress"}
+    if unknown:
+        raise TypeError(f"unknown option(s): {', '.join(sorted(unknown))}")
     if lens not in LENS_MODELS:
         raise InputError(f"--lens {lens!r} is not known; choose one of {', '.join(LENS_MODELS)}")
     if polarizer is not None and polarizer not in PLACEMENTS:
