@@ -123,7 +123,7 @@ def _aolp_deg(dx, dup, dt):
 
 
 def model_maps(geom: SkyGeometry, model, dolp_max: float = 1.0, *, dtype=np.float32,
-               want=("dolp", "aolp", "scattering_angle", "elevation", "inside", "up")) -> dict:
+               want=("dolp", "aolp", "scattering_angle", "elevation", "inside", "up"), engine: str = "auto") -> dict:
     """Full-frame model maps (h, w) for ``geom``.
 
     Parameters
@@ -136,6 +136,10 @@ def model_maps(geom: SkyGeometry, model, dolp_max: float = 1.0, *, dtype=np.floa
         Which maps: ``dolp``, ``aolp`` (deg), ``scattering_angle`` (deg), ``elevation``
         (deg), ``azimuth`` (deg from north, clockwise), ``inside`` (pixel sees the scene),
         ``up`` (above the horizon).
+    engine : {"auto", "numpy"}
+        ``auto`` uses the compiled kernel of :mod:`polarsky.sky._kernels` for a pinhole
+        lens without distortion, the single-scattering model and float32 maps; ``numpy``
+        always uses the reference numpy code.
 
     Returns
     -------
@@ -145,6 +149,16 @@ def model_maps(geom: SkyGeometry, model, dolp_max: float = 1.0, *, dtype=np.floa
     lens = geom.lens
     h, w = lens.height, lens.width
     sun_cam, up_cam, rot = geom.sun_cam, geom.up_cam, geom.rotation
+    from ..geometry.camera import PinholeLens
+    from .models import RayleighSingleScattering
+
+    if (engine == "auto" and type(lens) is PinholeLens and not lens.distortion
+            and type(model) is RayleighSingleScattering and np.dtype(dtype) == np.float32):
+        from ._kernels import pinhole_rayleigh_maps
+
+        return pinhole_rayleigh_maps(h, w, sun_cam=sun_cam, up_cam=up_cam, east_cam=rot.T @ [1.0, 0.0, 0.0],
+                                     north_cam=rot.T @ [0.0, 1.0, 0.0], focal_px=lens.focal_px, cx=lens.cx,
+                                     cy=lens.cy, dolp_max=dolp_max, placement=geom.placement, want=tuple(want))
     out = {k: np.empty((h, w), dtype=bool if k in ("inside", "up") else dtype) for k in want}
     inner = tuple({"dolp": "shape"}.get(k, k) for k in want if k != "inside")
     step = max(1, BLOCK_PIXELS // max(w, 1))

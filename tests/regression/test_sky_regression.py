@@ -9,7 +9,7 @@ import pytest
 
 from polarsky.sky.calibrate import run_sky_calibration
 from polarsky.sky.run import run_sky
-from tests.test_sky_fit import PLACE, _geom, _products
+from tests.test_sky_fit import PLACE, _geom, _products  # the invented scene of the round-trip tests
 
 GEO = dict(hfov_deg=70, pitch_deg=25, roll_deg=4, pictures=False, **PLACE)
 
