@@ -46,12 +46,14 @@ def _overlay(ax, geom, scat, bands, stride, extent_hw):
             cs.append(c)
         for b in bands:
             if b["kind"] == "sun":
-                continue
-            level = b["radius_deg"] if b["about"] == "sun" else 180.0 - b["radius_deg"]
+                level, label = b["outer_deg"], "sun + aureole (masked)"
+            else:
+                level = b["radius_deg"] if b["about"] == "sun" else 180.0 - b["radius_deg"]
+                label = b["name"]
             if lo < level < hi:
                 c = ax.contour(xs, ys, scat, levels=[level], colors="#ffe08a", linewidths=1.0, linestyles=":")
                 c.set(path_effects=[pe.withStroke(linewidth=2.5, foreground="black")])
-                for t in ax.clabel(c, fmt={level: b["name"]}, fontsize=6, colors="#ffe08a"):
+                for t in ax.clabel(c, fmt={level: label}, fontsize=6, colors="#ffe08a"):
                     t.set_path_effects([pe.withStroke(linewidth=2, foreground="black")])
     for name, vec, colour in (("sun", geom.sun_cam, "#ffd21f"), ("antisun", -geom.sun_cam, "#7fd4ff")):
         u, v, ok = lens.project(vec.reshape(3, 1))
