@@ -95,7 +95,7 @@ def geometry_kwargs(kw: dict) -> dict:
 
 
 def _fmt_sigma(v):
-    return "undetermined" if v is None else f"± {v:.2f}"
+    return "undetermined" if v is None else f"± {v:.3f}"
 
 
 @click.command(name="sky", epilog=ANGLE_HELP)
@@ -135,8 +135,14 @@ def command(frames, out_dir, as_json, solve, pictures, **kw):
     if o.get("source") == "solved":
         line += " (solved: " + ", ".join(f"{a} {_fmt_sigma(o.get(a + '_sigma_deg'))}" for a in o["solved"]) + " deg)"
     click.echo(line + f"; polarizer {res['polarizer']}")
+    if o.get("source") == "solved" and len(o["parameters"]) > 1:
+        names, corr = o["parameters"], o["correlation"]
+        pairs = [f"{names[i]}/{names[j]} {corr[i][j]:+.2f}" for i in range(len(names)) for j in range(i + 1, len(names))]
+        click.echo("correlation of the solved angles: " + ", ".join(pairs))
+    for note in o.get("notes", []):
+        click.echo("note: " + note)
     dm = res["dolp_max"]
-    click.echo(f"dolp_max {dm:.3f} ± {res['dolp_max_sigma']:.3f} (pure-air bound {res['dolp_max_bound']:.3f}, Young 1980)"
+    click.echo(f"dolp_max {dm:.3f} ± {res['dolp_max_sigma']:.4f} (pure-air bound {res['dolp_max_bound']:.3f}, Young 1980)"
                if dm is not None else "dolp_max: not determined")
     if res["aolp_rms_deg"] is not None:
         click.echo(f"residuals over {res['sky_pixels']} sky pixels: AoLP rms {res['aolp_rms_deg']:.2f} deg, "
