@@ -142,8 +142,9 @@ def command(frames, out_dir, as_json, solve, pictures, **kw):
     for note in o.get("notes", []):
         click.echo("note: " + note)
     dm = res["dolp_max"]
-    click.echo(f"dolp_max {dm:.3f} ± {res['dolp_max_sigma']:.4f} (pure-air bound {res['dolp_max_bound']:.3f}, Young 1980)"
-               if dm is not None else "dolp_max: not determined")
+    sig = res["dolp_max_sigma"]
+    click.echo(f"dolp_max {dm:.3f} ± {sig if sig is not None else float('nan'):.4f} (pure-air bound "
+               f"{res['dolp_max_bound']:.3f}, Young 1980)" if dm is not None else "dolp_max: not determined")
     if res["aolp_rms_deg"] is not None:
         click.echo(f"residuals over {res['sky_pixels']} sky pixels: AoLP rms {res['aolp_rms_deg']:.2f} deg, "
                    f"DoLP rms {res['dolp_rms']:.3f}")
