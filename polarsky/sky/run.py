@@ -275,7 +275,7 @@ def _run(products, geom, info, out_dir, *, solve, sky_model, sky_mask_path, sun_
     used = reason == 0
     n_used = int(np.count_nonzero(used))
     if n_used < 50:
-        warnings.warn(f"only {n_used} sky pixels are left for the fit (see sky_mask.png); the results are "
+        warnings.warn(f"only {n_used} sky pixels are left for the fit (see sky_mask.png or sky_mask_reason in sky.nc); the results are "
                       "not reliable - check the orientation, --sky-mask and the frame", PolarskyWarning, stacklevel=2)
     shape_used = shape[used]
     joint = fit_dolp_max(dolp[:, used], np.broadcast_to(shape_used, (c, n_used)), seed=seed)
