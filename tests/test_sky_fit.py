@@ -318,3 +318,21 @@ def test_time_and_place_from_exif_of_jpeg_frames(tmp_path):
 def test_unknown_option_is_a_programming_error(plain, tmp_path):
     with pytest.raises(TypeError, match="unknown option"):
         run_sky(plain, tmp_path / "u", hfov=70, **PLACE)
+
+
+def test_focal_length_from_exif_35mm_equivalent(tmp_path):
+    # CIPA DC-008: the 35 mm equivalent focal length refers to the 43.27 mm diagonal
+    from PIL import Image
+
+    frames = render_sky_bracket(_geom(), ANGLES)
+    paths = []
+    for k, a in enumerate(ANGLES):
+        img = Image.fromarray(np.round(np.clip(frames[k, 0], 0, 1) ** (1 / 2.2) * 255).astype(np.uint8))
+        ex = Image.Exif()
+        ex.get_ifd(0x8769)[0xA405] = 28
+        p = tmp_path / f"f_{a:03d}deg.jpg"
+        img.save(p, exif=ex, quality=95)
+        paths.append(str(p))
+    res = run_sky(paths, tmp_path / "f", yaw_deg=10, pitch_deg=25, roll_deg=4, pictures=False, **PLACE)
+    assert res["focal_source"] == "exif FocalLengthIn35mmFilm"
+    assert res["lens"]["focal_px"] == pytest.approx(28 * np.hypot(64, 48) / 43.2666)
