@@ -361,27 +361,21 @@ def _run(products, geom, info, out_dir, *, solve, sky_model, sky_mask_path, sun_
 
 
 def _write_nc(path: Path, *, dolp_model, aolp_model, dolp_res, aolp_res, maps, reason, channels, result):
-    import xarray as xr
+    """Write sky.nc (NetCDF-4 via h5netcdf, uncompressed) under a temporary name, then rename."""
+    import h5netcdf
+    import h5py
 
     cyx, yx = ("channel", "y", "x"), ("y", "x")
     f32 = np.float32
-    dv = {
-        "dolp_model": (cyx, dolp_model, {"units": "1", "long_name": "model DoLP (fitted dolp_max)"}),
-        "aolp_model": (yx, aolp_model.astype(f32), {"units": "degree", "long_name": "model AoLP, image convention"}),
-        "dolp_residual": (cyx, dolp_res, {"units": "1", "long_name": "observed minus model DoLP"}),
-        "aolp_residual": (cyx, aolp_res, {"units": "degree",
-                                          "long_name": "observed minus model AoLP, wrapped to [-90, 90)"}),
-        "scattering_angle": (yx, maps["scattering_angle"].astype(f32),
-                             {"units": "degree", "long_name": "angle between the sun and the viewing direction"}),
-        "elevation": (yx, maps["elevation"].astype(f32),
-                      {"units": "degree", "long_name": "elevation of the viewing direction above the horizon"}),
-        "azimuth": (yx, maps["azimuth"].astype(f32),
-                    {"units": "degree", "long_name": "azimuth of the viewing direction, clockwise from true north"}),
-        "sky_mask_reason": (yx, reason, {"units": "1", "long_name": "why a pixel was (not) used for the fit",
-                                         "flag_values": np.array(sorted(MASK_REASONS), dtype=np.uint8),
-                                         "flag_meanings": " ".join(MASK_REASONS[k].replace(" ", "_").replace(",", "")
-                                                                   .replace("(", "").replace(")", "")
-                                                                   for k in sorted(MASK_REASONS))}),
+    variables = {
+        "dolp_model": (cyx, dolp_model, "1", "model DoLP (fitted dolp_max)"),
+        "aolp_model": (yx, aolp_model, "degree", "model AoLP, image convention"),
+        "dolp_residual": (cyx, dolp_res, "1", "observed minus model DoLP"),
+        "aolp_residual": (cyx, aolp_res, "degree", "observed minus model AoLP, wrapped to [-90, 90)"),
+        "scattering_angle": (yx, maps["scattering_angle"], "degree",
+                             "angle between the sun and the viewing direction"),
+        "elevation": (yx, maps["elevation"], "degree", "elevation of the viewing direction above the horizon"),
+        "azimuth": (yx, maps["azimuth"], "degree", "azimuth of the viewing direction, clockwise from true north"),
     }
     attrs = {k: (json.dumps(_jsonable(v)) if isinstance(v, (bool, np.bool_)) or not isinstance(v, (str, int, float))
                  else v)
@@ -389,12 +383,30 @@ def _write_nc(path: Path, *, dolp_model, aolp_model, dolp_res, aolp_res, maps, r
     attrs["angle_convention"] = ("degrees in the image plane from the image +x axis, counter-clockwise as displayed; "
                                  "AoLP in [0, 180)")
     attrs["created"] = _dt.datetime.now(_dt.timezone.utc).isoformat(timespec="seconds")
-    ds = xr.Dataset(dv, coords={"channel": list(channels)}, attrs=attrs)
-    # uncompressed: zlib on full-frame float maps costs several times the whole comparison
-    enc = None
+    c, h, w = dolp_model.shape
     tmp = path.with_name(f".{path.name}.tmp-{os.getpid()}")
     try:
-        ds.to_netcdf(tmp, engine="h5netcdf", encoding=enc)
+        with h5netcdf.File(tmp, "w") as f:
+            f.dimensions = {"channel": c, "y": h, "x": w}
+            ch = f.create_variable("channel", ("channel",), dtype=h5py.string_dtype())
+            ch[:] = np.array(list(channels), dtype=object)
+            f.create_variable("y", ("y",), data=np.arange(h, dtype=np.int32))
+            f.create_variable("x", ("x",), data=np.arange(w, dtype=np.int32))
+            for name, (dims, arr, units, long_name) in variables.items():
+                v = f.create_variable(name, dims, dtype=f32, fillvalue=f32(np.nan))
+                v[...] = np.asarray(arr, dtype=f32)
+                v.attrs["units"] = units
+                v.attrs["long_name"] = long_name
+            v = f.create_variable("sky_mask_reason", yx, dtype=np.uint8)
+            v[...] = reason
+            v.attrs["units"] = "1"
+            v.attrs["long_name"] = "why a pixel was (not) used for the fit"
+            v.attrs["flag_values"] = np.array(sorted(MASK_REASONS), dtype=np.uint8)
+            v.attrs["flag_meanings"] = " ".join(
+                MASK_REASONS[k].replace(",", "").replace("(", "").replace(")", "").replace(" ", "_")
+                for k in sorted(MASK_REASONS))
+            for k, val in attrs.items():
+                f.attrs[k] = val
         os.replace(tmp, path)
     finally:
         if tmp.exists():
