@@ -7,6 +7,7 @@ import click
 from polarsky.pipeline import run_stokes
 
 from .common import ANGLE_HELP, bracket_kwargs, bracket_options, frames_argument, print_json, progress_wanted
+from .mosaic_options import mosaic_options, mosaic_run_from_options, strip_mosaic_options
 
 
 @click.command(name="stokes", epilog=ANGLE_HELP)
@@ -15,14 +16,19 @@ from .common import ANGLE_HELP, bracket_kwargs, bracket_options, frames_argument
 @click.option("--out", "out_dir", required=True, type=click.Path(file_okay=False, path_type=str),
               help="Folder for stokes.nc, summary.json and the PNG maps.")
 @click.option("--json", "as_json", is_flag=True, help="Print the summary as one JSON object.")
+@mosaic_options
 def command(frames, out_dir, as_json, **kw):
     """Per-pixel Stokes S0, S1, S2, DoLP and AoLP (with uncertainties) from FRAME... .
 
     Writes stokes.nc (NetCDF-4), summary.json, dolp.png, aolp.png, polarization.png and,
     with more than 3 frames, residual.png.
     """
+    mosaic = strip_mosaic_options(kw)
     opts = bracket_kwargs(kw)
-    summary = run_stokes(list(frames), out_dir, progress=progress_wanted(as_json), **opts)
+    # polarization-mosaic camera (cli/mosaic_options.py); None when --mosaic is absent
+    summary = mosaic_run_from_options(list(frames), out_dir, mosaic, bracket_opts=opts)
+    if summary is None:
+        summary = run_stokes(list(frames), out_dir, progress=progress_wanted(as_json), **opts)
     if as_json:
         print_json(summary)
         return 0

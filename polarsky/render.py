@@ -26,7 +26,7 @@ __all__ = [
     "save_figure",
 ]
 
-INVALID_NOTE = "checkered = not valid (saturated, black or outside the aligned frames)"
+INVALID_NOTE = "checkered = not valid (saturated, black, defective, or outside the aligned frames)"
 DOLP_FULL_SATURATION = 0.6
 
 
@@ -152,11 +152,12 @@ def _combined_key(fig, rect, dolp_full):
     return ax
 
 
-def stokes_pictures(prev: dict, out_dir, *, channels, step: int = 1) -> list[Path]:
+def stokes_pictures(prev: dict, out_dir, *, channels, step: int = 1, polarizer: str = "front") -> list[Path]:
     """Write ``dolp.png``, ``aolp.png``, ``polarization.png`` (and ``residual.png``).
 
     ``prev`` holds decimated (C, h, w) arrays from the pipeline's preview sink; colour
-    channels are combined by summing their Stokes vectors.
+    channels are combined by summing their Stokes vectors.  ``polarizer`` ("front" for a
+    bracket, "sensor" for a mosaic camera) words the residual picture and the key.
     """
     out_dir = Path(out_dir)
     from .stokes import dolp_aolp
@@ -188,7 +189,9 @@ def stokes_pictures(prev: dict, out_dir, *, channels, step: int = 1) -> list[Pat
         with np.errstate(invalid="ignore", divide="ignore"):
             rel = np.max(prev["residual"] / prev["S0"], axis=0) * 100
         paths.append(save_map_png(out_dir / "residual.png", rel, kind="residual", valid=valid, step=step, vmin=0,
-                                  title="Least-squares residual: where frames disagree (motion, clouds, drift)",
+                                  title=("Least-squares residual: where frames disagree (motion, clouds, drift)"
+                                         if polarizer == "front" else
+                                         "Least-squares residual: interpolation error at edges, defects"),
                                   label="RMS residual / S0 (%)"))
     return paths
 
