@@ -7,7 +7,8 @@ import click
 from polarsky.errors import InputError
 
 from .common import ANGLE_HELP, bracket_kwargs, bracket_options, frames_argument, print_json
-from .sky import geometry_kwargs, geometry_options, parse_floats
+from .mosaic_options import mosaic_options, strip_mosaic_options
+from .sky import geometry_kwargs, geometry_options, mosaic_products, parse_floats
 
 
 @click.command(name="sky", epilog=ANGLE_HELP + " Several brackets: give their frames in order with --bracket-size N "
@@ -29,6 +30,7 @@ from .sky import geometry_kwargs, geometry_options, parse_floats
 @click.option("--out", "out_path", required=True, type=click.Path(dir_okay=False, path_type=str), metavar="CAL.nc",
               help="Calibration file to write.")
 @click.option("--json", "as_json", is_flag=True, help="Print the result as one JSON object.")
+@mosaic_options
 def command(frames, out_path, as_json, bracket_size, poses, solve, reference_dolp_max, **kw):
     """Analyzer angle offset per channel from clear-sky FRAME... (apply with 'polarsky stokes --calibration').
 
@@ -40,13 +42,25 @@ def command(frames, out_path, as_json, bracket_size, poses, solve, reference_dol
     frames = list(frames)
     if not frames:
         raise InputError("give the frames of at least one clear-sky bracket (or stokes.nc files)")
-    brackets = split_brackets(frames, bracket_size)
+    mosaic = strip_mosaic_options(kw)
     pose_list = [parse_floats(p, "--pose", 3) for p in poses] or None
     geo = geometry_kwargs(kw)
-    geo.pop("pictures", None)
     opts = bracket_kwargs(kw)
     angles = opts.get("angles_deg")
-    res = run_sky_calibration(brackets, out_path, poses=pose_list, solve=solve or (),
+    stokes = None
+    if mosaic.get("mosaic") is not None:
+        # each mosaic FRAME is one measurement (or --bracket-size consecutive frames, averaged)
+        size = bracket_size or 1
+        if size < 1 or len(frames) % size:
+            raise InputError(f"{len(frames)} mosaic frames do not split into groups of {size}; give a multiple of "
+                             "--bracket-size frames")
+        brackets = [frames[i:i + size] for i in range(0, len(frames), size)]
+        stokes = [mosaic_products(b, mosaic, opts) for b in brackets]
+        opts = {}
+    else:
+        mosaic_products(frames, mosaic, opts)  # rejects mosaic-only options without --mosaic
+        brackets = split_brackets(frames, bracket_size)
+    res = run_sky_calibration(brackets, out_path, poses=pose_list, solve=solve or (), stokes=stokes,
                               reference_dolp_max=reference_dolp_max, **geo, **opts)
     if as_json:
         print_json(res)

@@ -10,8 +10,21 @@ from polarsky.geometry.polarizer import PLACEMENTS
 from polarsky.sky.models import SKY_MODELS
 
 from .common import ANGLE_HELP, bracket_kwargs, bracket_options, frames_argument, print_json
+from .mosaic_options import mosaic_dataset_from_options, mosaic_options, strip_mosaic_options
 
-__all__ = ["command", "geometry_options", "geometry_kwargs", "parse_floats"]
+__all__ = ["command", "geometry_options", "geometry_kwargs", "parse_floats", "mosaic_products"]
+
+
+def mosaic_products(frames, mosaic: dict, opts: dict):
+    """Stokes products of polarization-mosaic frames (``--mosaic``), or None for a bracket."""
+    ds = mosaic_dataset_from_options(frames, mosaic, calibration=opts.get("calibration"),
+                                     transfer=opts.get("transfer") or "auto", max_pixels=opts.get("max_pixels"),
+                                     bracket_values=opts)
+    if ds is None:
+        return None
+    from polarsky.sky.inputs import products_from_dataset
+
+    return products_from_dataset(ds)
 
 
 def parse_floats(text, name: str, count=None):
@@ -109,8 +122,9 @@ def _fmt_sigma(v):
 @click.option("--out", "out_dir", required=True, type=click.Path(file_okay=False, path_type=str),
               help="Folder for sky.json, sky.nc and the pictures.")
 @click.option("--json", "as_json", is_flag=True, help="Print sky.json as one JSON object.")
+@mosaic_options
 def command(frames, out_dir, as_json, solve, pictures, **kw):
-    """Compare the sky in FRAME... (a bracket, or one stokes.nc) with the clear-sky model.
+    """Compare the sky in FRAME... (a bracket, one stokes.nc, or mosaic frames with --mosaic) with the clear-sky model.
 
     Reports the sun position (NREL SPA), the fitted maximum DoLP beside the pure-air bound,
     the AoLP/DoLP residuals over the sky pixels used, and with --solve the camera orientation
@@ -122,9 +136,13 @@ def command(frames, out_dir, as_json, solve, pictures, **kw):
     frames = list(frames)
     if not frames and not kw.get("manifest"):
         raise InputError("give the frames of a sky bracket (or one stokes.nc), e.g. polarsky sky f_000deg.tif ... --out DIR")
+    mosaic = strip_mosaic_options(kw)
     geo = geometry_kwargs(kw)
     opts = bracket_kwargs(kw)
-    res = run_sky(frames, out_dir, solve=solve or (), pictures=pictures, **geo, **opts)
+    stokes = mosaic_products(frames, mosaic, opts)  # a polarization-mosaic camera's frame(s)
+    if stokes is not None:
+        opts = {}
+    res = run_sky(frames, out_dir, stokes=stokes, solve=solve or (), pictures=pictures, **geo, **opts)
     if as_json:
         print_json(res)
         return 0

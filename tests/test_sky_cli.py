@@ -114,3 +114,42 @@ def test_calibrate_sky_subprocess(stokes_nc, tmp_path):
     p = subprocess.run(cmd, cwd=ROOT, capture_output=True, text=True, timeout=120)
     assert p.returncode == 0, p.stderr
     assert "analyzer angle offset" in p.stdout and (tmp_path / "c.nc").is_file()
+
+
+@pytest.fixture(scope="module")
+def mosaic_frame(tmp_path_factory):
+    """One invented raw frame of a mono polarization-mosaic camera, cell 90,45;135,0."""
+    import numpy as np
+    import tifffile
+
+    sun = sun_position(parse_when(WHEN), 47.0, 8.0)
+    g = SkyGeometry(make_lens("pinhole", 64, 48, hfov_deg=70), 10, 25, 4, sun["azimuth_deg"], sun["elevation_deg"],
+                    "sensor")
+    i = render_sky_bracket(g, (90, 45, 135, 0), noise_sigma=0.001, analyzer_offset_deg=1.5)[:, 0]
+    raw = np.empty((48, 64))
+    raw[0::2, 0::2], raw[0::2, 1::2] = i[0][0::2, 0::2], i[1][0::2, 1::2]
+    raw[1::2, 0::2], raw[1::2, 1::2] = i[2][1::2, 0::2], i[3][1::2, 1::2]
+    p = tmp_path_factory.mktemp("mosaic") / "raw.tif"
+    tifffile.imwrite(p, np.clip(raw * 65535, 1, 65000).astype(np.uint16))
+    return str(p)
+
+
+def test_mosaic_frame_sky_and_calibration(mosaic_frame, tmp_path, capsys):
+    mos = ["--mosaic", "90,45;135,0"]
+    rc = main(["sky", mosaic_frame, *mos, *GEO, "--out", str(tmp_path / "s"), "--json", "--no-pictures"])
+    res = json.loads(capsys.readouterr().out)
+    assert rc == 0 and res["polarizer"] == "sensor"  # micro-polarizers sit on the sensor
+    assert res["aolp_bias_deg"] == pytest.approx(-1.5, abs=0.3)
+    rc = main(["calibrate", "sky", mosaic_frame, *mos, *GEO, "--out", str(tmp_path / "m.nc"), "--json"])
+    cal = json.loads(capsys.readouterr().out)
+    assert rc == 0 and cal["angle_offset_deg"][0] == pytest.approx(1.5, abs=0.15)
+    rc = main(["sky", mosaic_frame, *mos, "--calibration", str(tmp_path / "m.nc"), *GEO, "--out", str(tmp_path / "s2"),
+               "--json", "--no-pictures"])
+    after = json.loads(capsys.readouterr().out)
+    assert rc == 0 and abs(after["aolp_bias_deg"]) < 0.3
+
+
+def test_mosaic_rejects_bracket_angles(mosaic_frame, tmp_path, capsys):
+    rc = main(["sky", mosaic_frame, "--mosaic", "90,45;135,0", "--angles", "0,45,90,135", *GEO,
+               "--out", str(tmp_path / "x")])
+    assert rc == 2 and "cannot be used with --mosaic" in capsys.readouterr().err
