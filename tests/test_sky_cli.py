@@ -153,3 +153,52 @@ def test_mosaic_rejects_bracket_angles(mosaic_frame, tmp_path, capsys):
     rc = main(["sky", mosaic_frame, "--mosaic", "90,45;135,0", "--angles", "0,45,90,135", *GEO,
                "--out", str(tmp_path / "x")])
     assert rc == 2 and "cannot be used with --mosaic" in capsys.readouterr().err
+
+
+def _raw_mosaic(path, lens, pose, offsets, placement="sensor"):
+    import numpy as np
+    import tifffile
+
+    sun = sun_position(parse_when(WHEN), 47.0, 8.0)
+    g = SkyGeometry(lens, *pose, sun["azimuth_deg"], sun["elevation_deg"], placement)
+    i = np.stack([render_sky_bracket(g, (a,), noise_sigma=0.001, analyzer_offset_deg=o, seed=k)[0, 0]
+                  for k, (a, o) in enumerate(zip((90, 45, 135, 0), offsets))])
+    raw = np.empty(i.shape[1:])
+    raw[0::2, 0::2], raw[0::2, 1::2] = i[0][0::2, 0::2], i[1][0::2, 1::2]
+    raw[1::2, 0::2], raw[1::2, 1::2] = i[2][1::2, 0::2], i[3][1::2, 1::2]
+    tifffile.imwrite(path, np.clip(raw * 65535, 1, 65000).astype(np.uint16))
+    return str(path)
+
+
+def test_per_position_offsets_wide_field(tmp_path, capsys):
+    frame = _raw_mosaic(tmp_path / "w.tif", make_lens("fisheye-equidistant", 96, 96, fov_deg=180), (30, 80, 0),
+                        (1.0, 2.0, -1.0, 0.5))
+    fish = ["--lens", "fisheye-equidistant", "--fov-deg", "180", "--when", WHEN, "--lat", "47", "--lon", "8",
+            "--yaw-deg", "30", "--pitch-deg", "80"]
+    rc = main(["calibrate", "sky", frame, "--mosaic", "90,45;135,0", "--per-position", *fish,
+               "--out", str(tmp_path / "p.nc"), "--json"])
+    res = json.loads(capsys.readouterr().out)
+    assert rc == 0 and res["per_position"] is True
+    got = [row[0] for row in res["angle_offset_deg"]]
+    assert got == pytest.approx([1.0, 2.0, -1.0, 0.5], abs=0.2)
+    from polarsky.calibration import read_calibration
+
+    cal = read_calibration(tmp_path / "p.nc")
+    assert cal.angle_offset_deg.shape == (4, 1) and cal.channel_params(0, 1)[0] == pytest.approx(got[1])
+    rc = main(["sky", frame, "--mosaic", "90,45;135,0", "--calibration", str(tmp_path / "p.nc"), *fish,
+               "--out", str(tmp_path / "s"), "--json", "--no-pictures"])
+    assert rc == 0 and abs(json.loads(capsys.readouterr().out)["aolp_bias_deg"]) < 0.1
+
+
+def test_per_position_offsets_narrow_field_are_refused(tmp_path, capsys):
+    frame = _raw_mosaic(tmp_path / "n.tif", make_lens("pinhole", 64, 48, hfov_deg=70), (10, 25, 4),
+                        (1.0, 2.0, -1.0, 0.5))
+    rc = main(["calibrate", "sky", frame, "--mosaic", "90,45;135,0", "--per-position", *GEO,
+               "--out", str(tmp_path / "p.nc")])
+    err = capsys.readouterr().err
+    assert rc == 2 and "cannot be told apart from their gains" in err and not (tmp_path / "p.nc").exists()
+
+
+def test_per_position_needs_mosaic(frames, tmp_path, capsys):
+    rc = main(["calibrate", "sky", *frames, "--per-position", *GEO, "--out", str(tmp_path / "p.nc")])
+    assert rc == 2 and "--per-position applies to polarization-mosaic frames" in capsys.readouterr().err

@@ -64,6 +64,89 @@ def _applied_analysis(attrs: dict, n_channels: int):
     return off, dia
 
 
+def position_samples(intensities, aolp_model_deg, dolp_model, used, *, max_samples: int = 20_000, seed: int = 0):
+    """Random sky pixels of one bracket for :func:`fit_position_offsets`.
+
+    Returns a dict of ``intensities`` (4, C, n), ``psi`` (n, radians), ``p`` (C, n).
+    """
+    from .fit import subsample
+
+    idx = subsample(used, max_samples, seed)
+    n_pos, c = intensities.shape[:2]
+    return {"intensities": intensities.reshape(n_pos, c, -1)[:, :, idx].astype(np.float64),
+            "psi": np.deg2rad(aolp_model_deg.reshape(-1)[idx].astype(np.float64)),
+            "p": dolp_model.reshape(c, -1)[:, idx].astype(np.float64)}
+
+
+def fit_position_offsets(samples: list, angles_deg, *, rounds: int = 4) -> dict:
+    """Angle offset of each micro-polarizer position (mosaic cameras) against the sky model.
+
+    For position ``k`` at nominal angle ``theta_k``,
+    ``I_k / S0 = 1/2 (1 + a_k p cos(2 (theta_k + delta_k) - 2 psi))`` with the model's AoLP
+    ``psi`` and DoLP ``p``; ``delta_k`` and an amplitude ``a_k`` (diattenuation times any
+    error of the model's DoLP scale) are fitted per position and channel with a soft-L1
+    loss, alternating with ``S0`` (which depends on the position angles).  Phase and
+    amplitude separate only where ``psi`` varies over the pixels: over a narrow field
+    ``a_k`` and ``delta_k`` are tied, which the returned correlation shows.
+
+    Parameters
+    ----------
+    samples : list of dict
+        From :func:`position_samples` (one per bracket; they are fitted together).
+    angles_deg : sequence of 4 float
+        Nominal micro-polarizer angles.
+
+    Returns
+    -------
+    dict
+        ``offsets_deg``, ``sigma_deg``, ``amplitude``, ``correlation`` (between amplitude
+        and offset), each (4, C).
+    """
+    from scipy.optimize import least_squares
+
+    from ..stokes import analysis_matrix, solve_matrix
+
+    inten = np.concatenate([s["intensities"] for s in samples], axis=2)
+    psi = np.concatenate([s["psi"] for s in samples])
+    p = np.concatenate([s["p"] for s in samples], axis=1)
+    n_pos, c, _ = inten.shape
+    theta = np.deg2rad(np.asarray(angles_deg, dtype=np.float64))
+    off = np.zeros((n_pos, c))
+    amp = np.ones((n_pos, c))
+    sig = np.zeros((n_pos, c))
+    corr = np.zeros((n_pos, c))
+    for ch in range(c):
+        for _ in range(rounds):
+            row0 = solve_matrix(analysis_matrix(np.rad2deg(theta) + off[:, ch]))[0]
+            s0 = np.tensordot(row0, inten[:, ch], axes=1)
+            good = (s0 > 0) & np.isfinite(s0) & np.isfinite(p[ch]) & np.isfinite(psi)
+            for k in range(n_pos):
+                g = good & np.isfinite(inten[k, ch])
+                y = inten[k, ch, g] / s0[g]
+                pp, ps, th = p[ch, g], psi[g], theta[k]
+
+                def resid(x, y=y, pp=pp, ps=ps, th=th):
+                    return y - 0.5 * (1 + x[0] * pp * np.cos(2 * (th + np.deg2rad(x[1])) - 2 * ps))
+
+                res = least_squares(resid, [amp[k, ch], off[k, ch]], loss="soft_l1", f_scale=0.01, method="trf",
+                                    diff_step=1e-6)
+                jtj = res.jac.T @ res.jac
+                var = 2.0 * res.cost / max(y.size - 2, 1)
+                cov = var * np.linalg.pinv(jtj)
+                amp[k, ch], off[k, ch] = res.x
+                sd = np.sqrt(np.clip(np.diag(cov), 0, None))
+                sig[k, ch] = sd[1]
+                corr[k, ch] = cov[0, 1] / (sd[0] * sd[1]) if sd[0] > 0 and sd[1] > 0 else 1.0
+    off = (off + 90.0) % 180.0 - 90.0
+    return {"offsets_deg": off, "sigma_deg": sig, "amplitude": amp, "correlation": corr}
+
+
+def _none_nan(x):
+    if isinstance(x, list):
+        return [_none_nan(v) for v in x]
+    return None if (isinstance(x, float) and not np.isfinite(x)) else x
+
+
 def split_brackets(frames, bracket_size: int | None) -> list[list[str]]:
     """Group FRAME... into brackets: ``bracket_size`` consecutive frames each, or one
     bracket per ``stokes.nc``; all frames form one bracket by default."""
@@ -87,7 +170,7 @@ def split_brackets(frames, bracket_size: int | None) -> list[list[str]]:
 def run_sky_calibration(brackets, out_path, *, poses=None, solve=(), reference_dolp_max=None, stokes=None,
                         sky_mask_path=None, model="rayleigh", neutral_point_deg: float = 20.0, sun_mask_deg: float = 10.0,
                         min_elevation_deg: float = 0.0, max_fit_samples: int = 20_000, seed: int = 0,
-                        **options) -> dict:
+                        position_data=None, **options) -> dict:
     """Fit the analyzer angle offset per channel from clear-sky brackets; write ``out_path``.
 
     Parameters
@@ -104,7 +187,12 @@ def run_sky_calibration(brackets, out_path, *, poses=None, solve=(), reference_d
     reference_dolp_max : float, optional
         The sky's true maximum DoLP; when given, the effective diattenuation is estimated.
     stokes : list of dict, optional
-        Pre-loaded Stokes products per bracket (tests).
+        Pre-loaded Stokes products per bracket (mosaic frames, tests).
+    position_data : list of dict, optional
+        Mosaic cameras, per bracket: ``intensities`` (4, C, h, w) of the micro-polarizer
+        positions (no calibration applied), ``angles_deg`` (their nominal angles) and
+        ``mosaic``/``mosaic_colour`` (layout text).  Then an offset per position and channel is
+        fitted (``angle_offset_deg`` of shape (4, C)).
     **options
         Time/place, lens, polarizer and bracket options as for :func:`polarsky.sky.run.run_sky`.
 
@@ -168,7 +256,7 @@ def run_sky_calibration(brackets, out_path, *, poses=None, solve=(), reference_d
                              f"{np.count_nonzero(used)} clear-sky pixels; check its orientation and --sky-mask")
         samples.append(sample_bracket(geom, aolp, dolp, used, max_samples=max_fit_samples, seed=seed + 100 + i))
         infos.append(info)
-        fitted_data.append((dolp, m["dolp"], used))
+        fitted_data.append((dolp, m["dolp"], used, products["S"][0], geom))
     fit = fit_orientation(samples, sky_model, solve=solve, fit_offset=True, search=False, warn=False)
     off_names = {f"offset[{k}]" for k in range(len(channels))}
     offset_ties = [t for t in fit["ties"] if (t["a"] in off_names) != (t["b"] in off_names)]
@@ -192,13 +280,38 @@ def run_sky_calibration(brackets, out_path, *, poses=None, solve=(), reference_d
     # the DoLP scale per channel, over all brackets' sky pixels
     dmax, dmax_sigma = [], []
     for k in range(len(channels)):
-        obs = np.concatenate([d[k][u] for d, _, u in fitted_data])
-        shp = np.concatenate([sh[u] for _, sh, u in fitted_data])
+        obs = np.concatenate([fd[0][k][fd[2]] for fd in fitted_data])
+        shp = np.concatenate([fd[1][fd[2]] for fd in fitted_data])
         f = fit_dolp_max(obs, shp, seed=seed)
         dmax.append(f["dolp_max"])
         dmax_sigma.append(f["dolp_max_sigma"])
     dmax, dmax_sigma = np.array(dmax), np.array(dmax_sigma)
     notes = list(fit["messages"])
+    if position_data is not None:
+        # per micro-polarizer position: refit each position's angle at the fitted poses
+        psamples = []
+        for i, (pdat, fd) in enumerate(zip(position_data, fitted_data)):
+            pose = fit["poses"][i]
+            g = fd[4].with_orientation(pose["yaw_deg"], pose["pitch_deg"], pose["roll_deg"])
+            mm = model_maps(g, sky_model, 1.0, want=("dolp", "aolp"))
+            inten = np.asarray(pdat["intensities"], dtype=np.float32)
+            if inten.shape[-2:] != fd[2].shape:
+                raise InputError(f"bracket {i + 1}: position intensities are {inten.shape[-1]}x{inten.shape[-2]} but the "
+                                 f"Stokes maps are {fd[2].shape[1]}x{fd[2].shape[0]}; decode both the same way")
+            dm = np.stack([mm["dolp"] * np.float32(x if np.isfinite(x) else 0.0) for x in dmax])
+            psamples.append(position_samples(inten, mm["aolp"], dm, fd[2], max_samples=max_fit_samples, seed=seed + i))
+        pf = fit_position_offsets(psamples, position_data[0]["angles_deg"])
+        worst = float(np.max(np.abs(pf["correlation"])))
+        if worst > TIE_CORRELATION:
+            raise InputError(
+                f"the micro-polarizer positions' angle offsets cannot be told apart from their gains with this data "
+                f"(correlation {worst:.3f} > {TIE_CORRELATION}): the sky's AoLP varies too little over the frame; use a "
+                "wide-angle lens or several brackets pointing in different directions, or calibrate the positions on "
+                "a bench ('polarsky calibrate flat') and fit only the common offset (drop --per-position); "
+                "no calibration file was written")
+        offsets, offsets_sigma = pf["offsets_deg"], pf["sigma_deg"]
+        notes.append("offsets fitted per micro-polarizer position (rows: positions in the cell's row-major order "
+                     f"{list(position_data[0]['angles_deg'])})")
     diatt = diatt_sigma = None
     if reference_dolp_max is not None:
         ref = float(reference_dolp_max)
@@ -226,6 +339,13 @@ def run_sky_calibration(brackets, out_path, *, poses=None, solve=(), reference_d
         "offset_already_applied_deg": prior.tolist(),
         "sky_pixels": int(fit["samples"]),
     }
+    if position_data is not None:
+        attrs["mosaic"] = position_data[0].get("mosaic")
+        attrs["mosaic_colour"] = position_data[0].get("mosaic_colour") or "none"
+        attrs["positions_deg"] = [float(a) for a in position_data[0]["angles_deg"]]
+        if diatt is not None:
+            diatt = np.broadcast_to(diatt, offsets.shape).copy()
+            diatt_sigma = np.broadcast_to(diatt_sigma, offsets.shape).copy()
     unc = {"angle_offset_deg": offsets_sigma}
     if diatt is not None:
         unc["diattenuation"] = diatt_sigma
@@ -240,12 +360,13 @@ def run_sky_calibration(brackets, out_path, *, poses=None, solve=(), reference_d
         "kind": "sky",
         "channels": list(channels),
         "angle_offset_deg": offsets.tolist(),
-        "angle_offset_sigma_deg": [None if not np.isfinite(x) else float(x) for x in offsets_sigma],
+        "angle_offset_sigma_deg": _none_nan(offsets_sigma.tolist()),
         "diattenuation": None if diatt is None else diatt.tolist(),
         "diattenuation_sigma": None if diatt_sigma is None else diatt_sigma.tolist(),
         "dolp_max": dmax.tolist(),
         "dolp_max_sigma": dmax_sigma.tolist(),
         "offset_already_applied_deg": prior.tolist(),
+        "per_position": position_data is not None,
         "brackets": n_b,
         "poses": poses_out,
         "parameters": fit["parameters"],
