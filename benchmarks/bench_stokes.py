@@ -19,7 +19,6 @@ from __future__ import annotations
 
 import argparse
 import json
-import resource  # noqa: F401 - used by the measured child
 import shutil
 import subprocess
 import sys
@@ -116,8 +115,11 @@ def write_tiffs(folder, h, w):
     return paths
 
 
-_MEASURED = ("import sys, resource; from cli.main import main; rc = main(sys.argv[1:]); "
-             "sys.stderr.write('MAXRSS %d\\n' % resource.getrusage(resource.RUSAGE_SELF).ru_maxrss); sys.exit(rc)")
+# VmHWM (peak RSS of this process image) is read from /proc: getrusage's ru_maxrss would
+# include the benchmark's own memory, which a forked child inherits until exec.
+_MEASURED = ("import sys; from cli.main import main; rc = main(sys.argv[1:]); "
+             "hwm = [l for l in open('/proc/self/status') if l.startswith('VmHWM')][0].split()[1]; "
+             "sys.stderr.write('MAXRSS %s\\n' % hwm); sys.exit(rc)")
 
 
 def run_child(cmd):

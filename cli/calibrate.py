@@ -13,6 +13,7 @@ import click
 #: Modules that define the calibrate sub-commands.
 CALIBRATE_MODULES: list[str] = [
     "calibrate_flat",
+    "calibrate_sky",
 ]
 
 

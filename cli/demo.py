@@ -31,6 +31,10 @@ def command(out_dir, as_json):
     click.echo(f"keep the plate visible (protect {rep['protect']}): best angle {rep['contrast_best_angle_deg']:.1f} deg "
                f"(truth {rep['true_contrast_best_angle_deg']:.1f}), contrast gain {rep['contrast_gain']:.2f}x "
                f"(truth {rep['true_contrast_gain']:.2f}x)")
+    click.echo(f"evening sky (sun at azimuth {rep['sun_azimuth_deg']:.1f}, elevation {rep['sun_elevation_deg']:.1f} deg): "
+               f"camera heading from the sky {rep['sky_yaw_deg']:.1f} deg (truth {rep['true_sky_yaw_deg']:.1f}, "
+               f"compass said {rep['sky_yaw_guess_deg']:.1f}); fitted max DoLP {rep['sky_dolp_max']:.3f} "
+               f"(truth {rep['true_sky_dolp_max']:.3f}); AoLP residual {rep['sky_aolp_rms_deg']:.2f} deg RMS")
     for k, v in rep["outputs"].items():
         click.echo(f"  {k}: {v}")
     click.echo(SAFETY_NOTE)

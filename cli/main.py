@@ -24,6 +24,7 @@ COMMAND_MODULES = [
     "advise",
     "demo",
     "calibrate",
+    "sky",
     "batch",
 ]
 

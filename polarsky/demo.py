@@ -8,6 +8,11 @@ tilted by the camera's roll) over light coming up from the plate (weakly polariz
 way).  The bracket is four 8-bit sRGB PNG frames through an ideal polarizer at 0/45/90/135
 degrees, with hand-held shake between frames and camera noise.  The true Stokes maps are
 known, so the recommended filter angle can be compared with the truth.
+
+A second bracket looks at the evening sky over the same invented site: it is rendered from
+the single-scattering model for the sun's position at that time and place, and the demo
+recovers the camera's heading from the sky pattern, starting from a compass reading that
+is 12 degrees off.
 """
 
 from __future__ import annotations
@@ -138,6 +143,30 @@ def write_bracket(scene: DemoScene, folder, *, seed: int = 11, stem: str = "kest
     return paths
 
 
+# The sky part of the demo: an evening look east-north-east over the same invented harbour.
+SKY_WHEN = "2026-06-21T19:10:00+02:00"
+SKY_LAT, SKY_LON, SKY_ALT_M = 46.37, 9.84, 420.0   # invented site coordinates
+SKY_CAMERA = {"yaw_deg": 72.0, "pitch_deg": 28.0, "roll_deg": 2.5, "hfov_deg": 70.0}
+SKY_SIZE = (240, 320)
+SKY_DOLP_MAX = 0.72
+SKY_YAW_GUESS_DEG = 60.0   # the inspector's compass reading, 12 deg off
+
+
+def write_sky_bracket(folder, *, seed: int = 5) -> list[Path]:
+    """Render the clear-sky bracket of the demo (model sky, noise) as 16-bit TIFFs."""
+    from .geometry import make_lens
+    from .sky.skymap import SkyGeometry
+    from .sky.sun import parse_when, sun_position
+    from .sky.synth import render_sky_bracket, write_tiff_bracket
+
+    h, w = SKY_SIZE
+    sun = sun_position(parse_when(SKY_WHEN), SKY_LAT, SKY_LON, altitude_m=SKY_ALT_M)
+    geom = SkyGeometry(make_lens("pinhole", w, h, hfov_deg=SKY_CAMERA["hfov_deg"]), SKY_CAMERA["yaw_deg"],
+                       SKY_CAMERA["pitch_deg"], SKY_CAMERA["roll_deg"], sun["azimuth_deg"], sun["elevation_deg"], "front")
+    frames = render_sky_bracket(geom, ANGLES_DEG, dolp_max=SKY_DOLP_MAX, noise_sigma=0.002, seed=seed)
+    return write_tiff_bracket(folder, frames, [int(a) for a in ANGLES_DEG], stem="kestrel_sky")
+
+
 def run_demo(out_dir, *, progress: bool = False) -> dict:
     """Render the demo bracket into ``out_dir/bracket`` and run the pipeline as a user would."""
     from .advice import run_advise
@@ -150,9 +179,31 @@ def run_demo(out_dir, *, progress: bool = False) -> dict:
     region = ",".join(str(v) for v in scene.region_box)
     protect = ",".join(str(v) for v in scene.protect_box)
     summary = run_stokes(frames, out / "stokes", align=True, progress=progress)
-    adv = run_advise(frames, out / "advice", region=region, align=True, progress=progress)
-    adv_p = run_advise(frames, out / "advice-protect", region=region, protect=protect, align=True, progress=progress)
+    import warnings
+
+    from .errors import PolarskyWarning
+
+    with warnings.catch_warnings():  # the same frames again: their warnings were already shown
+        warnings.simplefilter("ignore", PolarskyWarning)
+        adv = run_advise(frames, out / "advice", region=region, align=True, progress=progress)
+        adv_p = run_advise(frames, out / "advice-protect", region=region, protect=protect, align=True,
+                           progress=progress)
+    from .sky.run import run_sky
+
+    sky_frames = write_sky_bracket(out / "sky-bracket")
+    sky = run_sky(sky_frames, out / "sky", when=SKY_WHEN, lat=SKY_LAT, lon=SKY_LON, altitude_m=SKY_ALT_M,
+                  hfov_deg=SKY_CAMERA["hfov_deg"], yaw_deg=SKY_YAW_GUESS_DEG, pitch_deg=SKY_CAMERA["pitch_deg"],
+                  roll_deg=SKY_CAMERA["roll_deg"], solve="yaw")
     report = {
+        "sky_frames": [str(p) for p in sky_frames],
+        "sky_yaw_deg": sky["yaw_deg"],
+        "true_sky_yaw_deg": SKY_CAMERA["yaw_deg"],
+        "sky_yaw_guess_deg": SKY_YAW_GUESS_DEG,
+        "sky_dolp_max": sky["dolp_max"],
+        "true_sky_dolp_max": SKY_DOLP_MAX,
+        "sky_aolp_rms_deg": sky["aolp_rms_deg"],
+        "sun_azimuth_deg": sky["sun_azimuth_deg"],
+        "sun_elevation_deg": sky["sun_elevation_deg"],
         "frames": [str(p) for p in frames],
         "region": region,
         "protect": protect,
@@ -168,7 +219,7 @@ def run_demo(out_dir, *, progress: bool = False) -> dict:
         "true_contrast_gain": truth["contrast"]["contrast_gain"],
         "mean_dolp": summary.get("mean_dolp"),
         "outputs": {"stokes": str(out / "stokes"), "advice": str(out / "advice"),
-                    "advice_protect": str(out / "advice-protect")},
+                    "advice_protect": str(out / "advice-protect"), "sky": str(out / "sky")},
     }
     (out / "demo.json").write_text(json.dumps(report, indent=2) + "\n")
     return report

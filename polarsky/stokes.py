@@ -331,7 +331,7 @@ def sigma_dolp_aolp(s, variance, cov):
     dt = s0.dtype
     c = np.asarray(cov, dtype=dt)
     var = np.asarray(variance, dtype=dt)
-    with np.errstate(divide="ignore", invalid="ignore"):
+    with np.errstate(divide="ignore", invalid="ignore", over="ignore"):
         l2 = s1 * s1 + s2 * s2
         lin = np.sqrt(l2)
         inv_s0 = 1 / s0

@@ -144,3 +144,10 @@ def test_float32_stays_float32():
     p, a = sk.dolp_aolp(s)
     assert p.dtype == np.float32 and a.dtype == np.float32
     assert np.all((a >= 0) & (a < 180))
+
+
+def test_uncertainties_of_unpolarized_pixels_do_not_warn():
+    # S1 = S2 = 0 exactly (flat, unpolarized): no floating-point warnings, AoLP uncertainty at its cap
+    s = np.array([[0.5, 1e-6], [0.0, 0.0], [0.0, 0.0]], np.float32)
+    sp, sa, sr = sk.sigma_dolp_aolp(s, np.float32(1e-6), sk.stokes_covariance(sk.analysis_matrix([0, 45, 90, 135])))
+    assert np.all(sa == pytest.approx(180 / np.sqrt(12)))
