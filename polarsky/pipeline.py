@@ -306,11 +306,16 @@ class MemorySink:
 
 
 class NetCDFSink:
+    """Stream blocks to a :class:`~polarsky.dataset.NetCDFBlockWriter`; times itself."""
+
     def __init__(self, writer: NetCDFBlockWriter):
         self.writer = writer
+        self.seconds = 0.0
 
     def write(self, r0, r1, products, values):
+        t = time.perf_counter()
         self.writer.write(r0, r1, products)
+        self.seconds += time.perf_counter() - t
 
 
 class PreviewSink:
@@ -570,22 +575,20 @@ def run_stokes(frames=(), out_dir=None, *, pictures: bool = True, **options) -> 
     t_decode = time.perf_counter() - t0
     names = [n for n in VARIABLES if n != "residual" or bracket.n > 3]
     with OutputStage(out_dir) as stage:
-        nc_attrs = _attrs(bracket, settings, {"analysis": analysis_matrices(bracket, settings)[1]})
         writer = NetCDFBlockWriter(stage.path("stokes.nc"), shape=bracket.shape, channels=bracket.channels,
                                    names=names, attrs={})
         preview = PreviewSink(bracket.shape)
         stats = StatsSink(bracket.n_channels)
+        nc_sink = NetCDFSink(writer)
         try:
-            info = process_bracket(bracket, settings, [NetCDFSink(writer), preview, stats], progress=progress)
-            for k, v in _attrs(bracket, settings, info).items():
-                writer._f.attrs[k] = v
+            info = process_bracket(bracket, settings, [nc_sink, preview, stats], progress=progress)
             t1 = time.perf_counter()
+            writer.set_attrs(_attrs(bracket, settings, info))
             writer.commit()
-            t_nc = time.perf_counter() - t1 + info["timing_s"]["sinks"]
+            t_nc = time.perf_counter() - t1 + nc_sink.seconds
         except BaseException:
             writer.abort()
             raise
-        del nc_attrs
         t2 = time.perf_counter()
         prev = preview.finish()
         pics = render.stokes_pictures(prev, stage.dir, channels=bracket.channels, step=preview.step) if pictures else []

@@ -105,13 +105,13 @@ def make_thumbnails(folder, frames, *, px: int = 240, best_angle_deg=None) -> li
     for target, src in ((THUMB_DOLP, first("dolp")), (THUMB_AOLP, first("aolp"))):
         if src is not None:
             with Image.open(src) as im:
-                _shrink(im.convert("RGB"), px).save(folder / target)
+                _shrink(im.convert("RGB"), px).save(folder / target, compress_level=1)
             made.append(target)
     for p in pngs:
         n = p.name.lower()
         if "sky" in n and "residual" in n:  # the sky comparison's residual figures
             with Image.open(p) as im:
-                _shrink(im.convert("RGB"), px).save(folder / f"thumb_sky_{p.stem}.png")
+                _shrink(im.convert("RGB"), px).save(folder / f"thumb_sky_{p.stem}.png", compress_level=1)
             made.append(f"thumb_sky_{p.stem}.png")
     if frames:
         prev = _frame_preview(Path(frames[0]), px)
@@ -122,7 +122,7 @@ def make_thumbnails(folder, frames, *, px: int = 240, best_angle_deg=None) -> li
                 lw = max(2, prev.width // 80)
                 draw.line([(x0, y0), (x1, y1)], fill=(0, 0, 0), width=lw + 2)
                 draw.line([(x0, y0), (x1, y1)], fill=(255, 200, 0), width=lw)
-            prev.save(folder / THUMB_FRAME)
+            prev.save(folder / THUMB_FRAME, compress_level=1)
             made.append(THUMB_FRAME)
     return made
 
