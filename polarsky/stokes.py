@@ -48,6 +48,7 @@ __all__ = [
     "residual_rms",
     "intensity_at",
     "BAD_CONDITION",
+    "distinct_orientations",
 ]
 
 #: Condition number of the analysis matrix above which a warning is given.  Equally spaced
@@ -115,6 +116,17 @@ def analysis_matrix(angles_deg, *, diattenuation=1.0, transmittance=1.0, angle_o
     )
 
 
+def distinct_orientations(angles_deg) -> np.ndarray:
+    """Distinct analyzer orientations modulo 180 degrees (rounded to 1e-6 deg), sorted.
+
+    Examples
+    --------
+    >>> distinct_orientations([0, 180, 45, 225.0000000001]).tolist()
+    [0.0, 45.0]
+    """
+    return np.unique(np.round(np.mod(np.asarray(angles_deg, dtype=np.float64).ravel(), 180.0), 6) % 180.0)
+
+
 def check_angles(angles_deg, *, warn_condition: float = BAD_CONDITION) -> float:
     """Check that an analyzer angle set determines S0, S1, S2; return cond(W).
 
@@ -142,7 +154,7 @@ def check_angles(angles_deg, *, warn_condition: float = BAD_CONDITION) -> float:
     angles = np.asarray(angles_deg, dtype=np.float64).ravel()
     if angles.size == 0 or not np.all(np.isfinite(angles)):
         raise InputError(f"analyzer angles {list(angles_deg)!r} are not all finite numbers")
-    distinct = np.unique(np.round(np.mod(angles, 180.0), 6) % 180.0)
+    distinct = distinct_orientations(angles)
     if distinct.size < 3:
         raise InputError(
             f"analyzer angles {_fmt(angles)} hold only {distinct.size} distinct value(s) "

@@ -43,7 +43,7 @@ import numpy as np
 
 from ..calibration import Calibration
 from ..errors import InputError, PolarskyWarning
-from ..stokes import check_angles
+from ..stokes import check_angles, distinct_orientations
 from .io import read_mosaic_frame
 from .layout import MosaicLayout, bayer_cell_colours, check_frame_shape, parse_mosaic
 
@@ -72,7 +72,7 @@ def _check_bench_angles(angles_deg, n_frames):
     a = np.asarray(angles_deg, dtype=np.float64).ravel()
     if a.size != n_frames:
         raise InputError(f"{n_frames} calibration frames but {a.size} angles; give one --angles value per frame")
-    distinct = np.unique(np.round(np.mod(a, 180.0), 6) % 180.0)
+    distinct = distinct_orientations(a)
     if distinct.size < 3:
         raise InputError(
             f"only {distinct.size} distinct reference-polarizer angle(s) modulo 180 deg; a flat "

@@ -18,6 +18,7 @@ from dataclasses import dataclass
 import numpy as np
 
 from ..errors import InputError
+from ..stokes import distinct_orientations
 
 __all__ = ["MosaicLayout", "parse_mosaic", "BAYER_ORDERS", "check_frame_shape"]
 
@@ -114,8 +115,7 @@ def parse_mosaic(text, colour=None) -> MosaicLayout:
             raise InputError(f"mosaic {text!r} is not a 2x2 cell of angles; {_EXAMPLE}")
     if not np.all(np.isfinite(arr)):
         raise InputError(f"mosaic {text!r} has non-finite angles; {_EXAMPLE}")
-    red = np.round(np.mod(arr.ravel(), 180.0), 6) % 180.0
-    if np.unique(red).size != 4:
+    if distinct_orientations(arr).size != 4:
         raise InputError(
             f"mosaic {text!r} does not hold four distinct orientations (modulo 180 deg); "
             f"give the four micro-polarizer angles of the 2x2 cell, {_EXAMPLE}"
