@@ -9,7 +9,7 @@ import click
 
 from polarsky.ingest import DEFAULT_MAX_PIXELS
 
-__all__ = ["frames_argument", "bracket_options", "bracket_kwargs", "print_json", "ANGLE_HELP"]
+__all__ = ["frames_argument", "bracket_options", "bracket_kwargs", "print_json", "ANGLE_HELP", "apply_options"]
 
 ANGLE_HELP = ("Angles are degrees counter-clockwise from the image's +x axis as displayed. If you give "
               "filter-ring readings instead of absolute angles, results are ring readings on the same scale.")
@@ -44,11 +44,16 @@ _OPTIONS = [
 ]
 
 
-def bracket_options(f):
-    """Add the bracket-reading and estimate options to a click command."""
-    for opt in reversed(_OPTIONS):
+def apply_options(f, options):
+    """Apply click option decorators so that ``--help`` lists them in the given order."""
+    for opt in reversed(options):
         f = opt(f)
     return f
+
+
+def bracket_options(f):
+    """Add the bracket-reading and estimate options to a click command."""
+    return apply_options(f, _OPTIONS)
 
 
 def bracket_kwargs(kw: dict) -> dict:

@@ -14,6 +14,8 @@ from polarsky.errors import InputError
 from polarsky.mosaic.methods import DEMOSAIC_METHODS
 from polarsky.mosaic.layout import BAYER_ORDERS
 
+from .common import apply_options
+
 __all__ = ["mosaic_options", "mosaic_dataset_from_options", "mosaic_run_from_options", "strip_mosaic_options",
            "MOSAIC_OPTION_NAMES"]
 
@@ -41,9 +43,7 @@ _OPTIONS = [
 def mosaic_options(func):
     """Click decorator adding the mosaic options (keyword arguments ``mosaic``, ``mosaic_colour``,
     ``demosaic``, ``bit_depth``, ``black_level``)."""
-    for opt in reversed(_OPTIONS):
-        func = opt(func)
-    return func
+    return apply_options(func, _OPTIONS)
 
 
 def mosaic_dataset_from_options(frames, options, *, calibration=None, transfer="auto", max_pixels=None,

@@ -9,7 +9,7 @@ from polarsky.geometry.camera import LENS_MODELS
 from polarsky.geometry.polarizer import PLACEMENTS
 from polarsky.sky.models import SKY_MODELS
 
-from .common import ANGLE_HELP, bracket_kwargs, bracket_options, frames_argument, print_json
+from .common import ANGLE_HELP, apply_options, bracket_kwargs, bracket_options, frames_argument, print_json
 from .mosaic_options import mosaic_dataset_from_options, mosaic_options, strip_mosaic_options
 
 __all__ = ["command", "geometry_options", "geometry_kwargs", "parse_floats", "mosaic_products"]
@@ -90,9 +90,7 @@ _GEOMETRY = [
 
 
 def geometry_options(f):
-    for opt in reversed(_GEOMETRY):
-        f = opt(f)
-    return f
+    return apply_options(f, _GEOMETRY)
 
 
 def geometry_kwargs(kw: dict) -> dict:
