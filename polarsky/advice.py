@@ -34,6 +34,8 @@ __all__ = [
     "best_angle_for_contrast",
     "transmitted",
     "RegionSink",
+    "region_stokes_sum",
+    "advice_result",
     "run_advise",
     "advice_text",
     "SAFETY_NOTE",
@@ -185,6 +187,30 @@ def best_angle_for_contrast(s_protect, s_region, *, diattenuation: float = 1.0) 
     }
 
 
+def region_stokes_sum(s0, s1, s2, valid, mask):
+    """Summed Stokes vector and pixel count of the valid pixels of ``mask``.
+
+    Parameters
+    ----------
+    s0, s1, s2 : ndarray, shape (C, h, w)
+        Stokes maps (any channels; they are summed too).
+    valid : ndarray, shape (C, h, w), bool
+        Valid pixels; a pixel counts only when valid in every channel.
+    mask : ndarray, shape (h, w), bool
+        The region.
+
+    Returns
+    -------
+    sums : ndarray, shape (3,), float64
+    count : int
+    """
+    sel = np.asarray(mask, bool) & np.asarray(valid, bool).all(axis=0)
+    n = int(sel.sum())
+    if not n:
+        return np.zeros(3), 0
+    return np.array([float(np.sum(a[:, sel], dtype=np.float64)) for a in (s0, s1, s2)]), n
+
+
 class RegionSink:
     """Sum the Stokes vectors (over channels and pixels) inside region masks, block by block."""
 
@@ -194,15 +220,10 @@ class RegionSink:
         self.counts = {k: 0 for k in masks}
 
     def write(self, r0, r1, products, values):
-        ok = products["valid"].all(axis=0)
         for k, m in self.masks.items():
-            sel = m[r0:r1] & ok
-            n = int(sel.sum())
-            if not n:
-                continue
+            sums, n = region_stokes_sum(products["S0"], products["S1"], products["S2"], products["valid"], m[r0:r1])
+            self.sums[k] += sums
             self.counts[k] += n
-            for j, name in enumerate(("S0", "S1", "S2")):
-                self.sums[k][j] += float(np.sum(products[name][:, sel], dtype=np.float64))
 
 
 def _turn_text(best: float, angles) -> str:
@@ -251,6 +272,55 @@ def advice_text(result: dict, angles) -> str:
     return "\n".join(lines)
 
 
+def advice_result(sums: dict, counts: dict, *, region, protect=None, extinction=None, analyzer_angles_deg,
+                  inputs, shifts_px=None, polarizer: str = "front") -> dict:
+    """The advice (what ``polarsky advise --json`` prints) from a region's summed Stokes vectors.
+
+    Parameters
+    ----------
+    sums : dict
+        ``"region"`` (and with ``protect`` ``"protect"``): summed Stokes vector (3,) of the
+        valid pixels inside (see :func:`region_stokes_sum`).
+    counts : dict
+        Valid pixel counts under the same keys.
+    region, protect : Region
+        The regions (their ``text`` is echoed).
+    extinction : float, optional
+        Filter extinction ratio (None = ideal).
+    analyzer_angles_deg, inputs, shifts_px, polarizer
+        Facts of the bracket echoed in the result.
+    """
+    from .stokes import diattenuation_from_extinction
+
+    if counts["region"] == 0:
+        raise InputError(f"region {region.text} holds no valid pixels (all saturated, black or outside); choose another region")
+    d = 1.0 if extinction is None else diattenuation_from_extinction(extinction)
+    result = best_angle_for_region(sums["region"], diattenuation=d)
+    result["extinction_ratio"] = extinction
+    result["region"] = region.text
+    result["region_pixels"] = counts["region"]
+    if protect is not None:
+        if counts["protect"] == 0:
+            raise InputError(f"protected region {protect.text} holds no valid pixels; choose another region")
+        minimum = result["best_angle_deg"]
+        con = best_angle_for_contrast(sums["protect"], sums["region"], diattenuation=d)
+        result.update(con)
+        result["minimum_angle_deg"] = minimum
+        result["protect"] = protect.text
+        result["protect_pixels"] = counts["protect"]
+        # reduction of the region at the recommended (contrast) angle
+        s = sums["region"]
+        t_best = transmitted(s, con["best_angle_deg"], diattenuation=d)
+        result["reduction_stops"] = round(float(np.log2(0.5 * s[0] / t_best)), 4) if t_best > 0 else float("inf")
+    result["analyzer_angles_deg"] = list(analyzer_angles_deg)
+    result["inputs"] = list(inputs)
+    result["shifts_px"] = shifts_px
+    result["polarizer"] = polarizer
+    result["angle_convention"] = ("degrees counter-clockwise from the image +x axis as displayed, "
+                                  "in the frame of the input analyzer angles (ring readings stay ring readings)")
+    return result
+
+
 def run_advise(frames=(), out_dir=None, *, region, protect=None, pictures: bool = True, **options) -> dict:
     """``polarsky advise``: best filter angle for a region (optionally protecting another).
 
@@ -288,32 +358,10 @@ def run_advise(frames=(), out_dir=None, *, region, protect=None, pictures: bool 
     sink = RegionSink(masks)
     preview = pl.PreviewSink(bracket.shape, max_side=1200)
     info = pl.process_bracket(bracket, settings, [sink, preview], progress=progress)
-    if sink.counts["region"] == 0:
-        raise InputError(f"region {region.text} holds no valid pixels (all saturated, black or outside); choose another region")
+    result = advice_result(sink.sums, sink.counts, region=region, protect=protect, extinction=settings.extinction,
+                           analyzer_angles_deg=bracket.angles_deg.tolist(), inputs=[str(p) for p in bracket.paths],
+                           shifts_px=info.get("shifts_px"), polarizer="front")
     d = 1.0 if settings.extinction is None else diattenuation_from_extinction(settings.extinction)
-    result = best_angle_for_region(sink.sums["region"], diattenuation=d)
-    result["extinction_ratio"] = settings.extinction
-    result["region"] = region.text
-    result["region_pixels"] = sink.counts["region"]
-    if protect is not None:
-        if sink.counts["protect"] == 0:
-            raise InputError(f"protected region {protect.text} holds no valid pixels; choose another region")
-        minimum = result["best_angle_deg"]
-        con = best_angle_for_contrast(sink.sums["protect"], sink.sums["region"], diattenuation=d)
-        result.update(con)
-        result["minimum_angle_deg"] = minimum
-        result["protect"] = protect.text
-        result["protect_pixels"] = sink.counts["protect"]
-        # reduction of the region at the recommended (contrast) angle
-        s = sink.sums["region"]
-        t_best = transmitted(s, con["best_angle_deg"], diattenuation=d)
-        result["reduction_stops"] = round(float(np.log2(0.5 * s[0] / t_best)), 4) if t_best > 0 else float("inf")
-    result["analyzer_angles_deg"] = bracket.angles_deg.tolist()
-    result["inputs"] = [str(p) for p in bracket.paths]
-    result["shifts_px"] = info.get("shifts_px")
-    result["polarizer"] = "front"
-    result["angle_convention"] = ("degrees counter-clockwise from the image +x axis as displayed, "
-                                  "in the frame of the input analyzer angles (ring readings stay ring readings)")
     if out_dir is not None:
         from . import render_advice
 
