@@ -18,7 +18,7 @@ from dataclasses import dataclass
 import numpy as np
 
 from ..errors import InputError
-from ..stokes import distinct_orientations
+from ..core.stokes import distinct_orientations
 
 __all__ = ["MosaicLayout", "parse_mosaic", "BAYER_ORDERS", "check_frame_shape"]
 
