@@ -13,7 +13,7 @@ import warnings
 from ..errors import PolarskyWarning
 from ._common import collect_warnings, open_source, resolve_settings
 
-__all__ = ["stokes_from_files", "run_stokes", "RESIDUAL_WARNING"]
+__all__ = ["stokes_from_files", "stokes_from_mosaic_values", "run_stokes", "RESIDUAL_WARNING"]
 
 #: Median relative fit residual above which the frames are said to disagree.
 RESIDUAL_WARNING = 0.03
@@ -169,3 +169,62 @@ class _Timed:
         t = time.perf_counter()
         self.writer.write(r0, r1, products)
         self.writer.seconds += time.perf_counter() - t
+
+
+def stokes_from_mosaic_values(values, invalid=None, settings=None, *, full_scale: float = 65535.0, srgb: bool = False,
+                              **options):
+    """The Stokes Dataset of a polarization-mosaic frame already in memory (linear values).
+
+    Parameters
+    ----------
+    values : ndarray, shape (H, W)
+        Linear mosaic values ([0, 1] of full scale).
+    invalid : ndarray, shape (H, W), bool, optional
+        Raw pixels not to use.
+    settings : polarsky.Settings, optional
+    full_scale : float
+        Native full scale (DN) of the sensor, for the noise model.
+    srgb : bool
+        The values were sRGB-encoded before linearisation (noise model).
+    **options
+        Settings by name; ``mosaic`` (the cell) is required, ``mosaic_colour``,
+        ``demosaic``, ``calibration``, the noise options apply.
+
+    Returns
+    -------
+    xarray.Dataset
+    """
+    import numpy as np
+
+    from ..core.noise import NoiseModel
+    from ..errors import InputError
+    from ..estimate.runner import run_blocks, use_compiled
+    from ..estimate.sinks import MemorySink
+    from ..estimate.sources import MosaicSource
+    from ..mosaic.layout import check_frame_shape, parse_mosaic
+    from ..mosaic.methods import validate_method
+    from ..read.calibration_file import read_calibration
+    from ..write.dataset import stokes_dataset
+    from ..write.summary import calibration_facts
+
+    settings = resolve_settings(settings, options)
+    mo, est = settings.mosaic, settings.estimate
+    if mo.mosaic is None:
+        raise InputError("give mosaic=\"a,b;c,d\": the micro-polarizer angles of the 2x2 cell")
+    layout = parse_mosaic(mo.mosaic, mo.mosaic_colour)
+    method = validate_method(mo.demosaic)
+    values = np.asarray(values, dtype=np.float32)
+    check_frame_shape(values.shape, layout)
+    cal = None if est.calibration is None else read_calibration(est.calibration)
+    k = method.scale
+    src = MosaicSource(values, invalid, layout, method, cal, full_scale=full_scale, srgb=srgb,
+                       compiled=use_compiled((values.shape[0] // k, values.shape[1] // k), len(layout.channels)))
+    noise = NoiseModel(gain_e_per_dn=est.gain_e_per_dn, read_noise_dn=est.read_noise_dn, source=est.noise)
+    mem = MemorySink(src.shape, len(src.channels), _names(4))
+    info = run_blocks(src, noise, [mem])
+    attrs = {"source_kind": "polarization mosaic", "mosaic": layout.text, "mosaic_colour": layout.colour,
+             "demosaic": method.name, "demosaic_reference": method.reference, "polarizer": "sensor",
+             "analyzer_angles_deg": list(layout.angles_deg), "analysis_matrix": np.round(src.w, 8).tolist(),
+             "calibration": calibration_facts(cal, per_pixel=src.per_pixel), "output_pixel_size_px": k,
+             "uncertainty_source": info["noise_source"]}
+    return stokes_dataset(mem.arrays, channels=src.channels, attrs=attrs)
