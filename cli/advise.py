@@ -7,17 +7,13 @@ import click
 from polarsky.conventions import FIELD_CAUTION
 from polarsky.write.jsonio import print_json
 
-from .options import ANGLE_HELP, frames_argument, json_option, out_option, pop_settings, settings_options
+from .options import frames_command, pop_settings
 
 GROUPS = ("read", "mosaic", "estimate", "advise", "output")
 
 
-@click.command(name="advise", epilog=ANGLE_HELP, short_help="Which way to set the filter, and what it removes.")
-@frames_argument
-@settings_options(*GROUPS)
-@out_option(required=False, help="Folder for advice.json and the pictures (the axis drawn on the frame, the "
-                                 "predicted view); replaced whole.")
-@json_option
+@frames_command("advise", groups=GROUPS, out_required=False, short_help='Which way to set the filter, and what it removes.',
+                out_help='Folder for advice.json and the pictures (the axis drawn on the frame, the predicted view); replaced whole.')
 def command(frames, out_dir, as_json, **kw):
     """Which way to set the filter for FRAME..., and how much it will remove (give --region)."""
     from polarsky.advice.result import advice_text

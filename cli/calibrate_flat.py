@@ -6,17 +6,15 @@ import click
 
 from polarsky.write.jsonio import print_json
 
-from .options import frames_argument, json_option, out_option, pop_settings, settings_options
+from .options import frames_command, pop_settings
 
 GROUPS = ("read", "mosaic", "calibrate")
 EXCLUDE = ("manifest", "max_pixels", "demosaic", "bracket_size", "pose", "reference_dolp_max", "per_position")
 
 
-@click.command(name="flat", short_help="Per-pixel calibration of a mosaic sensor from bench frames.")
-@frames_argument
-@settings_options(*GROUPS, exclude=EXCLUDE)
-@out_option(required=True, help="Folder for calibration.nc and calibration.json (replaced whole).")
-@json_option
+@frames_command("flat", groups=GROUPS, exclude=EXCLUDE, short_help='Per-pixel calibration of a mosaic sensor from bench frames.',
+                out_help='Folder for calibration.nc and calibration.json (replaced whole).',
+                epilog="")
 def command(frames, out_dir, as_json, **kw):
     """Fit each pixel's gain, diattenuation and orientation from bench FRAME... .
 

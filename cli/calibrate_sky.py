@@ -6,19 +6,16 @@ import click
 
 from polarsky.write.jsonio import print_json
 
-from .options import ANGLE_HELP, frames_argument, json_option, out_option, pop_settings, settings_options
+from .options import ANGLE_HELP, frames_command, pop_settings
 
 GROUPS = ("read", "mosaic", "estimate", "geometry", "sky", "calibrate")
 EXCLUDE = ("dark",)
 
 
-@click.command(name="sky", short_help="Analyzer angle offset from the clear sky.", epilog=ANGLE_HELP + (
-    " Several brackets: give their frames in order with --bracket-size N (or one stokes.nc per bracket) and one "
-    "--pose YAW,PITCH,ROLL per bracket."))
-@frames_argument
-@settings_options(*GROUPS, exclude=EXCLUDE)
-@out_option(required=True, help="Folder for calibration.nc and calibration.json (replaced whole).")
-@json_option
+@frames_command("sky", groups=GROUPS, exclude=EXCLUDE, short_help='Analyzer angle offset from the clear sky.',
+                out_help='Folder for calibration.nc and calibration.json (replaced whole).',
+                epilog=ANGLE_HELP + (" Several brackets: give their frames in order with --bracket-size N (or one "
+                                     "stokes.nc per bracket) and one --pose YAW,PITCH,ROLL per bracket."))
 def command(frames, out_dir, as_json, **kw):
     """Analyzer angle offset per channel from clear-sky FRAME... (apply with '--calibration DIR').
 

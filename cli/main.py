@@ -20,15 +20,16 @@ import click
 from polarsky._version import __version__
 from polarsky.errors import InputError, PolarskyWarning, one_line
 
-#: Sub-command name -> (module of this package, one-line summary for ``polarsky --help``).
-COMMAND_MODULES = {
-    "advise": ("advise", "Which way to set the filter, and what it removes."),
-    "batch": ("batch", "Process every bracket of a folder tree, locally or on dask."),
-    "calibrate": ("calibrate", "Make a calibration (flat bench frames or the clear sky)."),
-    "demo": ("demo", "Run polarsky on an invented scene with known truth."),
-    "sky": ("sky", "Compare the sky with the clear-sky model."),
-    "stokes": ("stokes", "Stokes maps, DoLP and AoLP with uncertainties."),
-}
+#: Sub-commands (each the module of this package of the same name) and their one-line
+#: summaries for ``polarsky --help``.
+COMMAND_MODULES = dict(
+    advise="Which way to set the filter, and what it removes.",
+    batch="Process every bracket of a folder tree, locally or on dask.",
+    calibrate="Make a calibration (flat bench frames or the clear sky).",
+    demo="Run polarsky on an invented scene with known truth.",
+    sky="Compare the sky with the clear-sky model.",
+    stokes="Stokes maps, DoLP and AoLP with uncertainties.",
+)
 
 
 class _LazyGroup(click.Group):
@@ -40,10 +41,10 @@ class _LazyGroup(click.Group):
     def get_command(self, ctx, name):
         if name not in COMMAND_MODULES:
             return None
-        return importlib.import_module(f"{__package__}.{COMMAND_MODULES[name][0]}").command
+        return importlib.import_module(f"{__package__}.{name}").command
 
     def format_commands(self, ctx, formatter):
-        rows = [(name, COMMAND_MODULES[name][1]) for name in self.list_commands(ctx)]
+        rows = [(name, COMMAND_MODULES[name]) for name in self.list_commands(ctx)]
         with formatter.section("Commands"):
             formatter.write_dl(rows)
 

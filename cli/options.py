@@ -13,9 +13,10 @@ import dataclasses
 import click
 
 from polarsky.conventions import ANGLE_HELP
-from polarsky.options.settings import GROUPS
+from polarsky.options.settings import GROUPS, choices_of
 
-__all__ = ["settings_options", "frames_argument", "out_option", "json_option", "pop_settings", "ANGLE_HELP"]
+__all__ = ["settings_options", "frames_argument", "out_option", "json_option", "pop_settings", "frames_command",
+           "ANGLE_HELP"]
 
 
 def _click_option(f: dataclasses.Field):
@@ -27,7 +28,7 @@ def _click_option(f: dataclasses.Field):
     if md["parse"].__name__ == "boolean":
         return click.option(f"{flag}/--no-{flag[2:]}", f.name, default=None, help=md["help"])
     if md["choices"]:
-        kw["type"] = click.Choice(list(md["choices"]), case_sensitive=False)
+        kw["type"] = click.Choice(list(choices_of(f)), case_sensitive=False)
     elif md["metavar"]:
         kw["metavar"] = md["metavar"]
     if md["multiple"]:
@@ -67,3 +68,16 @@ def out_option(*, required: bool, help: str):
 def json_option(fn):
     """``--json``: print one JSON object on stdout and nothing else there."""
     return click.option("--json", "as_json", is_flag=True, help="Print the result as one JSON object on stdout.")(fn)
+
+
+def frames_command(name: str, *, groups, short_help: str, out_help: str, out_required: bool = True, exclude=(),
+                   epilog: str = ANGLE_HELP):
+    """Decorator of a command that reads FRAME...: the settings options of ``groups``, ``--out``
+    and ``--json``, the same in every such command."""
+    def deco(fn):
+        fn = json_option(fn)
+        fn = out_option(required=out_required, help=out_help)(fn)
+        fn = settings_options(*groups, exclude=exclude)(fn)
+        fn = frames_argument(fn)
+        return click.command(name=name, short_help=short_help, epilog=epilog)(fn)
+    return deco

@@ -7,7 +7,7 @@ import click
 from polarsky.errors import InputError
 from polarsky.write.jsonio import print_json
 
-from .options import ANGLE_HELP, frames_argument, json_option, out_option, pop_settings, settings_options
+from .options import frames_command, pop_settings
 
 GROUPS = ("read", "mosaic", "estimate", "geometry", "sky", "output")
 
@@ -16,11 +16,8 @@ def _sigma(v):
     return "undetermined" if v is None else f"± {v:.3f}"
 
 
-@click.command(name="sky", epilog=ANGLE_HELP, short_help="Compare the sky with the clear-sky model.")
-@frames_argument
-@settings_options(*GROUPS)
-@out_option(required=True, help="Folder for sky.json, sky.nc and the pictures (replaced whole).")
-@json_option
+@frames_command("sky", groups=GROUPS, short_help='Compare the sky with the clear-sky model.',
+                out_help='Folder for sky.json, sky.nc and the pictures (replaced whole).')
 def command(frames, out_dir, as_json, **kw):
     """Compare the sky in FRAME... (a bracket, one stokes.nc, or mosaic frames) with the clear-sky model.
 

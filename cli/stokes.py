@@ -6,16 +6,13 @@ import click
 
 from polarsky.write.jsonio import print_json
 
-from .options import ANGLE_HELP, frames_argument, json_option, out_option, pop_settings, settings_options
+from .options import frames_command, pop_settings
 
 GROUPS = ("read", "mosaic", "estimate", "output")
 
 
-@click.command(name="stokes", epilog=ANGLE_HELP, short_help="Stokes maps, DoLP and AoLP with uncertainties.")
-@frames_argument
-@settings_options(*GROUPS)
-@out_option(required=True, help="Folder for stokes.nc, summary.json and the PNG maps (replaced whole).")
-@json_option
+@frames_command("stokes", groups=GROUPS, short_help='Stokes maps, DoLP and AoLP with uncertainties.',
+                out_help='Folder for stokes.nc, summary.json and the PNG maps (replaced whole).')
 def command(frames, out_dir, as_json, **kw):
     """Per-pixel Stokes S0, S1, S2, DoLP and AoLP (with uncertainties) from FRAME... .
 

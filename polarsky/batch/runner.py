@@ -130,15 +130,6 @@ def write_summary_csv(path, rows) -> None:
     state.atomic_write_text(path, buf.getvalue())
 
 
-def write_summary_csv(path, rows) -> None:
-    buf = io.StringIO()
-    w = csv.DictWriter(buf, fieldnames=SUMMARY_COLUMNS, extrasaction="ignore", lineterminator="\n")
-    w.writeheader()
-    for r in rows:
-        w.writerow(r)
-    state.atomic_write_text(path, buf.getvalue())
-
-
 def run_batch(root, out_dir, *, settings, sky: bool = False, client=None, progress: bool = False,
               on_dashboard=None) -> dict:
     """Process every bracket under ``root`` into ``out_dir``; return the batch result.

@@ -88,11 +88,10 @@ def read_complete(folder) -> dict | None:
 
 def write_marker(folder, *, key: str, row: dict, run_id: str) -> dict:
     """List the files of ``folder`` and write its ``batch.json`` (last)."""
+    from ..write.stage import listed_files
+
     folder = Path(folder)
-    outputs = {}
-    for p in sorted(folder.rglob("*")):
-        if p.is_file() and p.name != MARKER and not any(part.startswith(".") for part in p.relative_to(folder).parts):
-            outputs[p.relative_to(folder).as_posix()] = p.stat().st_size
+    outputs = {n: (folder / n).stat().st_size for n in listed_files(folder) if n != MARKER}
     marker = {"key": key, "run_id": run_id, "outputs": outputs, "row": row}
     atomic_write_text(folder / MARKER, json.dumps(marker, indent=1, sort_keys=True))
     return marker

@@ -20,6 +20,13 @@ _KNEE_V = 0.04045
 _KNEE_L = 0.0031308
 
 
+def _as_float(a):
+    """``a`` as a float array (float32 stays float32, integers become float64) and its dtype."""
+    a = np.asarray(a)
+    dt = a.dtype if a.dtype.kind == "f" else np.dtype(np.float64)
+    return a.astype(dt, copy=False), dt
+
+
 def srgb_to_linear(v):
     """Decode sRGB-encoded values in [0, 1] to linear light (IEC 61966-2-1).
 
@@ -43,27 +50,31 @@ def srgb_to_linear(v):
     >>> round(float(srgb_to_linear(0.5)), 8)
     0.21404114
     """
-    v = np.asarray(v)
-    dt = v.dtype if v.dtype.kind == "f" else np.float64
-    v = v.astype(dt, copy=False)
+    v, dt = _as_float(v)
     return np.where(v <= _KNEE_V, v / dt.type(12.92), ((v + dt.type(0.055)) / dt.type(1.055)) ** dt.type(2.4)).astype(dt)
 
 
 def linear_to_srgb(lin):
     """Encode linear light in [0, 1] with the sRGB transfer function (IEC 61966-2-1).
 
-    References
+    Parameters
     ----------
-    .. [1] IEC 61966-2-1:1999, section 5.2.
+    lin : array_like
+        Linear light; negative values count as 0.
+
+    Returns
+    -------
+    ndarray
+        ``12.92 L`` for ``L <= 0.0031308``, else ``1.055 L^(1/2.4) - 0.055`` (the inverse of
+        :func:`srgb_to_linear`, IEC 61966-2-1:1999 section 5.2), in the float dtype of ``lin``.
 
     Examples
     --------
     >>> round(float(linear_to_srgb(0.18)), 12)
     0.4613561295
     """
-    lin = np.asarray(lin)
-    dt = lin.dtype if lin.dtype.kind == "f" else np.float64
-    lin = np.clip(lin.astype(dt, copy=False), 0, None)
+    lin, dt = _as_float(lin)
+    lin = np.clip(lin, 0, None)
     return np.where(lin <= _KNEE_L, lin * dt.type(12.92), dt.type(1.055) * lin ** (1 / 2.4) - dt.type(0.055)).astype(dt)
 
 

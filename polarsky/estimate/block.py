@@ -22,6 +22,7 @@ import numpy as np
 
 from ..core import stokes as sk
 from ..core.noise import NoiseModel, model_variance
+from ..core.uncertainty import dolp_debiased_plaszczynski2014, sigma_dolp_aolp
 
 __all__ = ["BlockInput", "estimate", "SMOOTH_RADIUS", "PRODUCTS"]
 
@@ -126,8 +127,8 @@ def smooth_variance(var: np.ndarray) -> np.ndarray:
 
 def _uncertainty_numpy(s, dolp, var, cov):
     """Step 3, reference: sigma_dolp, sigma_aolp (deg), dolp_unbiased."""
-    sig_p, sig_a, sig_rice = sk.sigma_dolp_aolp(s, var, cov)
-    unb = sk.dolp_debiased_plaszczynski2014(dolp, sig_rice)
+    sig_p, sig_a, sig_rice = sigma_dolp_aolp(s, var, cov)
+    unb = dolp_debiased_plaszczynski2014(dolp, sig_rice)
     bad = ~(s[0] > 0)
     for a in (sig_p, sig_a, unb):
         a[bad] = np.nan

@@ -45,6 +45,17 @@ def _fit(t, own, hor, ver, dia, p, w):
     return s0, s1, s2, (own + hor + ver + dia) * np.float32(0.25), r0 * r0 + r1 * r1 + r2 * r2 + r3 * r3
 
 
+@inline
+def _fit_store(t, own, hor, ver, dia, p, w, s_out, mean_out, rss_out, y, x):
+    """Fit a pixel (see :func:`_fit`) and store its results at ``(y, x)`` of the outputs."""
+    s0, s1, s2, m, rss = _fit(t, own, hor, ver, dia, p, w)
+    s_out[0, y, x] = s0
+    s_out[1, y, x] = s1
+    s_out[2, y, x] = s2
+    mean_out[y, x] = m
+    rss_out[y, x] = rss
+
+
 @parallel_kernel
 def superpixel_pass(raw, p, w, s_out, mean_out, rss_out):
     """One output pixel per 2x2 cell: ``s_out`` (3, H/2, W/2), ``mean_out``, ``rss_out`` (H/2, W/2)."""
@@ -54,12 +65,7 @@ def superpixel_pass(raw, p, w, s_out, mean_out, rss_out):
         r1 = raw[2 * j + 1]
         for i in range(w2):
             # a cell seen from its position-0 pixel: own 0, horizontal 1, vertical 2, diagonal 3
-            s0, s1, s2, m, rss = _fit(0, r0[2 * i], r0[2 * i + 1], r1[2 * i], r1[2 * i + 1], p, w)
-            s_out[0, j, i] = s0
-            s_out[1, j, i] = s1
-            s_out[2, j, i] = s2
-            mean_out[j, i] = m
-            rss_out[j, i] = rss
+            _fit_store(0, r0[2 * i], r0[2 * i + 1], r1[2 * i], r1[2 * i + 1], p, w, s_out, mean_out, rss_out, j, i)
 
 
 @inline
@@ -68,12 +74,7 @@ def _bilinear_pixel(raw, y, ym, yp, x, xm, xp, ty, p, w, s_out, mean_out, rss_ou
     hor = (raw[y, xm] + raw[y, xp]) * np.float32(0.5)
     ver = (raw[ym, x] + raw[yp, x]) * np.float32(0.5)
     dia = (raw[ym, xm] + raw[ym, xp] + raw[yp, xm] + raw[yp, xp]) * np.float32(0.25)
-    s0, s1, s2, m, rss = _fit(ty + (x & 1), own, hor, ver, dia, p, w)
-    s_out[0, y, x] = s0
-    s_out[1, y, x] = s1
-    s_out[2, y, x] = s2
-    mean_out[y, x] = m
-    rss_out[y, x] = rss
+    _fit_store(ty + (x & 1), own, hor, ver, dia, p, w, s_out, mean_out, rss_out, y, x)
 
 
 @parallel_kernel
@@ -162,9 +163,4 @@ def newton_pass(rp, dp, eps, p, w, s_out, mean_out, rss_out):
         ty = 2 * (y & 1)
         for x in range(wd):
             m0, hv, vv = _newton_hv(rp, dp, y + 6, x + 6, y + 3, x + 3, eps)
-            s0, s1, s2, m, rss = _fit(ty + (x & 1), m0, hv, vv, dp[y + 3, x + 3], p, w)
-            s_out[0, y, x] = s0
-            s_out[1, y, x] = s1
-            s_out[2, y, x] = s2
-            mean_out[y, x] = m
-            rss_out[y, x] = rss
+            _fit_store(ty + (x & 1), m0, hv, vv, dp[y + 3, x + 3], p, w, s_out, mean_out, rss_out, y, x)

@@ -1,15 +1,8 @@
 """Edge-directed Newton-polynomial demosaicing guided by polarization differences.
 
-See :func:`demosaic_newton_li2019`; the compiled passes are in :mod:`polarsky.mosaic._kernels`
-and :func:`demosaic_newton_numpy` is the plain numpy reference.
-
-References
-----------
-.. [1] N. Li, Y. Zhao, Q. Pan, S. G. Kong, "Demosaicking DoFP images using Newton's
-   polynomial interpolation and polarization difference model", Opt. Express 27(2),
-   1376-1391 (2019), doi:10.1364/OE.27.001376.
-.. [2] S. Gao, V. Gruev, "Gradient-based interpolation method for division-of-focal-plane
-   polarimeters", Opt. Express 21(1), 1137-1151 (2013), doi:10.1364/OE.21.001137.
+See :func:`demosaic_newton_li2019` for the method and its published sources (Li et al. 2019;
+Gao & Gruev 2013); the compiled passes are in :mod:`polarsky.mosaic._kernels` and
+:func:`demosaic_newton_numpy` is the plain numpy reference.
 """
 
 from __future__ import annotations

@@ -1,7 +1,9 @@
-"""Value parsers of the settings table: ``parse(value, what, base) -> typed value``.
+"""Value parsers of the settings table: ``parse(value, what, base, spec) -> typed value``.
 
 ``value`` is text (the command line), a TOML value or a Python value; ``what`` names the
-option for messages; ``base`` is the folder relative paths are relative to (or None).
+option for messages; ``base`` is the folder relative paths are relative to (or None);
+``spec`` is the option's entry of the table (``choices``, ``flag``).  The table
+(``table.toml``) names its parser by the function's name.
 """
 
 from __future__ import annotations
@@ -10,48 +12,44 @@ from pathlib import Path
 
 from .._shared.checks import check_positive, check_range, parse_number
 from ..errors import InputError
-from ..registries import DEMOSAIC_METHODS, LENS_MODELS, SKY_MODELS
+from .. import registries
 from . import syntax
-
-DEMOSAIC_CHOICES = DEMOSAIC_METHODS.names()
-LENS_CHOICES = LENS_MODELS.names()
-SKY_MODEL_CHOICES = SKY_MODELS.names()
 
 
 def _num(value, what, *, allow_exponent=True):
     return parse_number(value, what, allow_exponent=allow_exponent)
 
 
-def number(value, what, base=None):
+def number(value, what, base=None, spec=None):
     return _num(value, what)
 
 
-def positive(value, what, base=None):
+def positive(value, what, base=None, spec=None):
     return check_positive(_num(value, what), what)
 
 
-def non_negative(value, what, base=None):
+def non_negative(value, what, base=None, spec=None):
     v = _num(value, what)
     if v < 0:
         raise InputError(f"{what} must be at least 0, got {value!r}")
     return v
 
 
-def fraction(value, what, base=None):
+def fraction(value, what, base=None, spec=None):
     v = _num(value, what)
     if not 0 < v <= 1:
         raise InputError(f"{what} must lie in (0, 1], got {value!r}")
     return v
 
 
-def positive_int(value, what, base=None):
+def positive_int(value, what, base=None, spec=None):
     v = _num(value, what)
     if v != int(v) or v < 1:
         raise InputError(f"{what} must be a whole number of at least 1, got {value!r}")
     return int(v)
 
 
-def boolean(value, what, base=None):
+def boolean(value, what, base=None, spec=None):
     if isinstance(value, bool):
         return value
     s = str(value).strip().lower()
@@ -62,16 +60,20 @@ def boolean(value, what, base=None):
     raise InputError(f"{what} must be true or false, got {value!r}")
 
 
-def choice(*names):
-    def parse(value, what, base=None):
-        s = str(value).strip().lower()
-        if s not in names:
-            raise InputError(f"{what} {value!r} is not one of {', '.join(names)}")
-        return s
-    return parse
+def choice(value, what, base=None, spec=None):
+    names = [str(c).lower() for c in spec["choices"]]
+    s = str(value).strip().lower()
+    if s not in names:
+        raise InputError(f"{what} {value!r} is not one of {', '.join(names)}")
+    return s
 
 
-def path(value, what, base=None):
+def registered(value, what, base=None, spec=None):
+    """A name of the registry the table names in ``choices`` (its canonical spelling)."""
+    return getattr(registries, spec["choices"]).key(value)
+
+
+def path(value, what, base=None, spec=None):
     pth = Path(value)
     if str(value).strip() == "":
         raise InputError(f"{what} is empty; give a path")
@@ -80,65 +82,65 @@ def path(value, what, base=None):
     return pth
 
 
-def paths(value, what, base=None):
+def paths(value, what, base=None, spec=None):
     items = [value] if isinstance(value, (str, Path)) else list(value)
     return tuple(path(v, what, base) for v in items)
 
 
-def angles(value, what, base=None):
+def angles(value, what, base=None, spec=None):
     return syntax.parse_angle_list(value, what)
 
 
-def pair(value, what, base=None):
+def pair(value, what, base=None, spec=None):
     return syntax.parse_number_list(value, what, 2)
 
 
-def distortion(value, what, base=None):
+def distortion(value, what, base=None, spec=None):
     vals = syntax.parse_number_list(value, what)
     if len(vals) not in (4, 5, 8):
         raise InputError(f"{what} {value!r} must hold 4, 5 or 8 OpenCV coefficients k1,k2,p1,p2[,k3[,k4,k5,k6]]")
     return vals
 
 
-def when(value, what, base=None):
+def when(value, what, base=None, spec=None):
     return syntax.parse_when(value, what)
 
 
-def latitude(value, what, base=None):
+def latitude(value, what, base=None, spec=None):
     return check_range(_num(value, what), -90, 90, what, unit="degrees north")
 
 
-def longitude(value, what, base=None):
+def longitude(value, what, base=None, spec=None):
     return check_range(_num(value, what), -180, 360, what, unit="degrees east")
 
 
-def pitch(value, what, base=None):
+def pitch(value, what, base=None, spec=None):
     return check_range(_num(value, what), -90, 90, what, unit="degrees (elevation of the optical axis)")
 
 
-def elevation(value, what, base=None):
+def elevation(value, what, base=None, spec=None):
     return check_range(_num(value, what), -90, 90, what, unit="degrees")
 
 
-def temperature(value, what, base=None):
+def temperature(value, what, base=None, spec=None):
     return check_range(_num(value, what), -90, 60, what, unit="deg C")
 
 
-def neutral_point(value, what, base=None):
+def neutral_point(value, what, base=None, spec=None):
     v = _num(value, what)
     if not 0 <= v < 60:
         raise InputError(f"{what} {value!r} must lie in [0, 60) degrees")
     return v
 
 
-def sun_mask(value, what, base=None):
+def sun_mask(value, what, base=None, spec=None):
     v = _num(value, what)
     if not 0 <= v < 90:
         raise InputError(f"{what} {value!r} must lie in [0, 90) degrees")
     return v
 
 
-def extinction(value, what, base=None):
+def extinction(value, what, base=None, spec=None):
     v = _num(value, what)
     if not v > 1:
         raise InputError(f"{what} {value!r} is the extinction ratio Tmax/Tmin and must be a finite number above 1 "
@@ -146,39 +148,27 @@ def extinction(value, what, base=None):
     return v
 
 
-def bit_depth(value, what, base=None):
+def bit_depth(value, what, base=None, spec=None):
     v = positive_int(value, what)
     if v not in (8, 10, 12, 14, 16):
         raise InputError(f"{what} {value!r} must be one of 8, 10, 12, 14, 16")
     return v
 
 
-def mosaic_cell(value, what, base=None):
+def mosaic_cell(value, what, base=None, spec=None):
     from ..mosaic.layout import parse_mosaic
 
     return parse_mosaic(str(value)).text
 
 
-def bayer(value, what, base=None):
+def bayer(value, what, base=None, spec=None):
     s = str(value).strip().upper()
     if s not in ("RGGB", "BGGR", "GRBG", "GBRG"):
         raise InputError(f"{what} {value!r} is not a Bayer order; give one of RGGB, BGGR, GRBG, GBRG")
     return s
 
 
-def demosaic(value, what, base=None):
-    return DEMOSAIC_METHODS.key(value)
-
-
-def lens(value, what, base=None):
-    return LENS_MODELS.key(value)
-
-
-def sky_model(value, what, base=None):
-    return SKY_MODELS.key(value)
-
-
-def solve(value, what, base=None):
+def solve(value, what, base=None, spec=None):
     items = value if isinstance(value, (list, tuple)) else str(value).split(",")
     names = tuple(dict.fromkeys(str(v).strip().lower() for v in items if str(v).strip()))
     bad = [n for n in names if n not in ("yaw", "pitch", "roll")]
@@ -187,7 +177,7 @@ def solve(value, what, base=None):
     return tuple(n for n in ("yaw", "pitch", "roll") if n in names)
 
 
-def poses(value, what, base=None):
+def poses(value, what, base=None, spec=None):
     items = [value] if isinstance(value, str) else list(value)
     out = []
     for item in items:
@@ -200,21 +190,19 @@ def poses(value, what, base=None):
     return tuple(out)
 
 
-def region(option):
-    def parse(value, what, base=None):
-        from ..read.masks import parse_region
+def region(value, what, base=None, spec=None):
+    from ..read.masks import parse_region
 
-        return parse_region(value, option=option, base=base)
-    return parse
+    return parse_region(value, option=spec["flag"] if spec else what, base=base)
 
 
-def embed(value, what, base=None):
+def embed(value, what, base=None, spec=None):
     if value == "auto" or (isinstance(value, str) and value.strip().lower() == "auto"):
         return "auto"
     return boolean(value, what)
 
 
-def scheduler(value, what, base=None):
+def scheduler(value, what, base=None, spec=None):
     s = str(value).strip()
     if "://" not in s:
         raise InputError(f"{what} must be an address like tcp://host:8786, got {value!r}")

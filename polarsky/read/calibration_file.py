@@ -2,12 +2,12 @@
 
 from __future__ import annotations
 
-import json
 from pathlib import Path
 
 import numpy as np
 
 from ..errors import InputError
+from .stokes_file import decode_attrs
 
 __all__ = ["read_calibration", "find_calibration"]
 
@@ -23,19 +23,6 @@ def find_calibration(path) -> Path:
         raise InputError(f"calibration {path} does not exist; give the {FILE_NAME} (or the folder) written by "
                          "'polarsky calibrate'")
     return p
-
-
-def _decode(v):
-    if isinstance(v, np.ndarray) and v.size == 1:
-        v = v.item()
-    if isinstance(v, np.generic):
-        v = v.item()
-    if isinstance(v, str) and v[:1] in "[{":
-        try:
-            return json.loads(v)
-        except ValueError:
-            return v
-    return v
 
 
 def read_calibration(path):
@@ -62,7 +49,7 @@ def read_calibration(path):
     p = find_calibration(path)
     try:
         with netCDF4.Dataset(p, "r") as f:
-            attrs = {k: _decode(f.getncattr(k)) for k in f.ncattrs()}
+            attrs = decode_attrs({k: f.getncattr(k) for k in f.ncattrs()})
             data = {}
             for name, v in f.variables.items():
                 v.set_auto_maskandscale(False)

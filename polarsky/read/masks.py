@@ -26,16 +26,9 @@ _BOX = re.compile(r"^\s*(-?\d+)\s*,\s*(-?\d+)\s*,\s*(-?\d+)\s*,\s*(-?\d+)\s*$")
 class Region:
     """A region given as a box or a mask image.
 
-    Attributes
-    ----------
-    text : str
-        What the user wrote (echoed in results and messages).
-    option : str
-        The option that gave it (``--region``, ``--protect``, ``--sky-mask``).
-    box : tuple of int or None
-        ``(x0, y0, x1, y1)``.
-    path : Path or None
-        The mask image.
+    ``text`` is what the user wrote (echoed in results and messages), ``option`` the option
+    that gave it (``--region``, ``--protect``, ``--sky-mask``); exactly one of ``box``
+    (``(x0, y0, x1, y1)``, pixels) and ``path`` (the mask image) is set.
     """
 
     text: str

@@ -37,8 +37,10 @@ def write_bracket(folder, stem: str = "scene", *, angles_deg=(0, 45, 90, 135), h
     Files are named ``<stem>_<angle>deg.<fmt>`` (or ``<stem>_<k>.<fmt>`` plus a
     ``manifest.csv`` when ``manifest`` is true).
     """
-    import imageio.v3 as iio
+    import cv2
     import tifffile
+
+    from ..core.transfer import linear_to_srgb
 
     folder = Path(folder)
     folder.mkdir(parents=True, exist_ok=True)
@@ -50,9 +52,8 @@ def write_bracket(folder, stem: str = "scene", *, angles_deg=(0, 45, 90, 135), h
         if fmt == "tif":
             tifffile.imwrite(p, np.round(np.clip(img, 0, 0.97) * 65535).astype(np.uint16))
         else:
-            v = np.clip(img, 0, 0.97)
-            enc = np.where(v <= 0.0031308, 12.92 * v, 1.055 * v ** (1 / 2.4) - 0.055)
-            iio.imwrite(p, np.round(enc * 255).astype(np.uint8))
+            enc = linear_to_srgb(np.clip(img, 0, 0.97))
+            cv2.imwrite(str(p), np.round(enc * 255).astype(np.uint8))
         paths.append(p)
     if manifest:
         lines = ["file,angle_deg"] + [f"{p.name},{a:g}" for p, a in zip(paths, angles_deg)]

@@ -6,8 +6,6 @@ Writes ``calibration.nc`` (per-pixel gain, diattenuation and angle) and ``calibr
 
 from __future__ import annotations
 
-from pathlib import Path
-
 from ..errors import InputError
 from ._common import collect_warnings, resolve_settings
 
@@ -32,9 +30,8 @@ def run_calibrate_flat(frames, out_dir, settings=None, **options) -> dict:
         The summary written to ``calibration.json``.
     """
     from ..mosaic.flatcal import fit_flat_files, flat_calibration, flat_summary
-    from ..write.calibration_file import write_calibration
-    from ..write.jsonio import write_json
-    from ..write.stage import OutputStage, check_out_dir
+    from ..write.calibration_file import publish_calibration
+    from ..write.stage import check_out_dir
 
     settings = resolve_settings(settings, options)
     frames = [str(f) for f in frames]
@@ -52,13 +49,7 @@ def run_calibrate_flat(frames, out_dir, settings=None, **options) -> dict:
                              bit_depth=rd.bit_depth, black_level=rd.black_level, transfer=rd.transfer)
         summary = flat_summary(fit)
         cal = flat_calibration(fit, summary)
-        with OutputStage(out_dir, command="calibrate flat", inputs=frames + dark) as stage:
-            write_calibration(stage.path("calibration.nc"), cal, inputs=frames + dark,
-                              method="per-pixel analysis-vector fit (calibration-matrix approach, Powell & Gruev "
-                                     "2013, Opt. Express 21(18) 21039)")
-            summary["warnings"] = caught.messages()
-            summary["outputs"] = ["calibration.json", "calibration.nc"]
-            write_json(stage.path("calibration.json"), summary)
-            stage.publish()
-    summary["calibration"] = str(Path(out_dir) / "calibration.nc")
+        publish_calibration(out_dir, cal, summary, command="calibrate flat", inputs=frames + dark,
+                            method="per-pixel analysis-vector fit (calibration-matrix approach, Powell & Gruev 2013, "
+                                   "Opt. Express 21(18) 21039)", warnings=caught.messages())
     return summary

@@ -313,9 +313,8 @@ def run_calibrate_sky(frames, out_dir, settings=None, **options) -> dict:
     or one ``stokes.nc`` each; with ``mosaic`` set, each frame (or group of
     ``bracket_size`` frames, averaged) is one measurement.
     """
-    from ..write.calibration_file import write_calibration
-    from ..write.jsonio import write_json
-    from ..write.stage import OutputStage, check_out_dir
+    from ..write.calibration_file import publish_calibration
+    from ..write.stage import check_out_dir
     from ._common import collect_warnings, resolve_settings
     from .sky import stokes_products
 
@@ -343,13 +342,7 @@ def run_calibrate_sky(frames, out_dir, settings=None, **options) -> dict:
         else:
             brackets = split_brackets(frames, cs.bracket_size)
         cal, result = fit_sky_calibration(brackets, settings, stokes=stokes, position_data=position_data)
-        with OutputStage(out_dir, command="calibrate sky", inputs=frames) as stage:
-            write_calibration(stage.path("calibration.nc"), cal, inputs=frames,
-                              method="sky: analyzer angle offset from the clear-sky AoLP pattern (single Rayleigh "
-                                     "scattering)")
-            result["warnings"] = caught.messages()
-            result["outputs"] = ["calibration.json", "calibration.nc"]
-            write_json(stage.path("calibration.json"), result)
-            stage.publish()
-    result["calibration"] = str(Path(out_dir) / "calibration.nc")
+        publish_calibration(out_dir, cal, result, command="calibrate sky", inputs=frames,
+                            method="sky: analyzer angle offset from the clear-sky AoLP pattern (single Rayleigh "
+                                   "scattering)", warnings=caught.messages())
     return result

@@ -137,6 +137,7 @@ def compare(products, geom, info, out_dir, *, settings, model, max_fit_samples, 
         "yaw_deg": geom.yaw_deg,
         "pitch_deg": geom.pitch_deg,
         "roll_deg": geom.roll_deg,
+        **{f"{a}_sigma_deg": orientation.get(f"{a}_sigma_deg") for a in ("yaw", "pitch", "roll")},
         "polarizer": geom.placement,
         "model": sky_model.name,
         "model_title": sky_model.title,
@@ -157,10 +158,9 @@ def compare(products, geom, info, out_dir, *, settings, model, max_fit_samples, 
         "inputs": list(inputs),
         "software_version": __version__,
         "caution": SUN_CAUTION,
+        "warnings": [],
+        "outputs": [],
     }
-    for ang in ("yaw", "pitch", "roll"):
-        if f"{ang}_sigma_deg" in orientation:
-            result[f"{ang}_sigma_deg"] = orientation[f"{ang}_sigma_deg"]
     write_sky_nc(Path(out_dir) / "sky.nc", dolp_model=dolp_model, aolp_model=maps["aolp"], dolp_res=dolp_res,
                  aolp_res=aolp_res, maps=maps, reason=reason, channels=channels, result=result)
     if settings.output.pictures:
@@ -170,7 +170,7 @@ def compare(products, geom, info, out_dir, *, settings, model, max_fit_samples, 
         from ..write.pictures.sky import save_sky_pictures
 
         save_sky_pictures(out_dir, geom=geom, bands=bands, observed_dolp=dolp[k], observed_aolp=aolp[k],
-                                   model_dolp=dolp_model[k], model_aolp=maps["aolp"], dolp_residual=dolp_res[k],
-                                   aolp_residual=aolp_res[k], scattering_angle=maps["scattering_angle"],
+                          model_dolp=dolp_model[k], model_aolp=maps["aolp"], dolp_residual=dolp_res[k],
+                          aolp_residual=aolp_res[k], scattering_angle=maps["scattering_angle"],
                           reason=reason, channel_name=channels[k], model_title=sky_model.title, summary_line=line)
     return result

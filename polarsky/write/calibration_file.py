@@ -10,7 +10,7 @@ import numpy as np
 from ..estimate.calibration import FORMAT_VERSION, Calibration
 from .netcdf import NetCDFFile, base_attrs
 
-__all__ = ["write_calibration"]
+__all__ = ["write_calibration", "publish_calibration"]
 
 
 def write_calibration(path, cal: Calibration, *, inputs=(), method: str = "") -> Path:
@@ -44,3 +44,21 @@ def write_calibration(path, cal: Calibration, *, inputs=(), method: str = "") ->
             units = "degree" if name.endswith("_deg") else "1"
             f.variable(name, d, a.dtype.str[1:], units=units, long_name=name.replace("_", " "), data=a)
     return path
+
+
+def publish_calibration(out_dir, cal: Calibration, result: dict, *, command: str, inputs=(), method: str = "",
+                        warnings=()) -> dict:
+    """Write ``calibration.nc`` and ``calibration.json`` (``result`` plus warnings and outputs)
+    into ``out_dir``, published whole; returns ``result`` with ``calibration`` (the file's path)."""
+    from .jsonio import write_json
+    from .stage import OutputStage
+
+    inputs = [str(p) for p in inputs]
+    with OutputStage(out_dir, command=command, inputs=inputs) as stage:
+        write_calibration(stage.path("calibration.nc"), cal, inputs=inputs, method=method)
+        result["warnings"] = list(warnings)
+        result["outputs"] = ["calibration.json", "calibration.nc"]
+        write_json(stage.path("calibration.json"), result)
+        stage.publish()
+    result["calibration"] = str(Path(out_dir) / "calibration.nc")
+    return result

@@ -28,7 +28,7 @@ from .._version import __version__
 from ..errors import InputError
 
 __all__ = ["OutputStage", "Into", "open_stage", "check_destination", "MARKER", "check_out_dir", "folder_lock",
-           "swap_in", "FolderLock"]
+           "swap_in", "FolderLock", "listed_files"]
 
 #: Hidden file that marks a folder written by polarsky (and lists the run's outputs).
 MARKER = ".polarsky-run.json"
@@ -117,6 +117,12 @@ def _hidden(out: Path, kind: str) -> Path:
     return out.parent / f".{out.name}.{kind}-{os.getpid()}-{uuid.uuid4().hex[:8]}"
 
 
+def listed_files(folder: Path) -> list:
+    """Files below ``folder`` (relative names, sorted), hidden files and folders left out."""
+    return sorted(p.relative_to(folder).as_posix() for p in folder.rglob("*")
+                  if p.is_file() and not any(part.startswith(".") for part in p.relative_to(folder).parts))
+
+
 def clean_leftovers(out: Path) -> None:
     """Remove staging and old folders of ``out`` left by killed runs (call with the lock held)."""
     if not out.parent.is_dir():
@@ -179,8 +185,7 @@ class OutputStage:
 
     def outputs(self) -> list:
         """Names of the files written so far (relative, sorted; hidden files left out)."""
-        return sorted(p.relative_to(self.dir).as_posix() for p in self.dir.rglob("*")
-                      if p.is_file() and not any(part.startswith(".") for part in p.relative_to(self.dir).parts))
+        return listed_files(self.dir)
 
     def publish(self) -> list:
         """Swap the complete staging folder in as ``out_dir``; returns the output paths."""
@@ -234,8 +239,7 @@ class Into:
         return self.dir / name
 
     def outputs(self) -> list:
-        return sorted(p.relative_to(self.dir).as_posix() for p in self.dir.rglob("*")
-                      if p.is_file() and not any(part.startswith(".") for part in p.relative_to(self.dir).parts))
+        return listed_files(self.dir)
 
     def publish(self) -> list:
         return [self.dir / n for n in self.outputs()]

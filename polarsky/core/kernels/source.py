@@ -81,6 +81,20 @@ def target() -> Path:
     return Path(__file__).with_name("_generated.py")
 
 
+def clear_cache() -> int:
+    """Delete numba's cached kernels of the package (after editing the fast-math policy)."""
+    root = Path(__file__).resolve().parents[2]
+    files = [p for p in root.rglob("*") if p.suffix in (".nbi", ".nbc")]
+    for p in files:
+        p.unlink()
+    return len(files)
+
+
 if __name__ == "__main__":
-    target().write_text(generate())
-    print(f"wrote {target()}")
+    import sys
+
+    if "--clear-cache" in sys.argv[1:]:
+        print(f"removed {clear_cache()} cached kernel files")
+    else:
+        target().write_text(generate())
+        print(f"wrote {target()}")
