@@ -23,7 +23,7 @@ def command(frames, out_dir, as_json, **kw):
     if as_json:
         print_json(result)
         return 0
-    click.echo(advice_text(result, result["analyzer_angles_deg"]))
+    click.echo(advice_text(result))
     if out_dir:
         click.echo(f"wrote {', '.join(result['outputs'])} to {out_dir}")
     click.echo(FIELD_CAUTION)

@@ -52,7 +52,7 @@ class _LazyGroup(click.Group):
 @click.group(cls=_LazyGroup, context_settings={"help_option_names": ["-h", "--help"], "max_content_width": 100})
 @click.version_option(__version__, prog_name="polarsky")
 def cli():
-    """polarsky: calibrated polarization from polarizer brackets and polarization cameras.
+    """polarsky: calibrated polarization from filter brackets and polarization cameras.
 
     Angles are degrees in the image plane, from the image's +x axis (to the right)
     counter-clockwise as seen on the displayed image; AoLP is in [0, 180). If you give

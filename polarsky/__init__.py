@@ -1,4 +1,4 @@
-"""polarsky: calibrated per-pixel polarization from polarizer brackets and polarization cameras.
+"""polarsky: calibrated per-pixel polarization from filter brackets and polarization cameras.
 
 The few calls a notebook needs::
 

@@ -18,14 +18,15 @@ __all__ = ["advice_result", "advice_text", "ANGLE_CONVENTION_NOTE", "ADVICE_KEYS
 ADVICE_KEYS = ("software_version", "best_angle_deg", "reduction_stops", "reduction_stops_ideal", "transmission_at_best",
                "region_dolp", "region_aolp_deg", "extinction_ratio", "region", "region_pixels", "protect",
                "protect_pixels", "contrast_gain", "protect_intensity", "region_intensity", "minimum_angle_deg",
-               "analyzer_angles_deg", "inputs", "shifts_px", "polarizer", "angle_convention", "warnings", "outputs")
+               "analyzer_angles_deg", "angle_offset_deg", "inputs", "shifts_px", "polarizer", "angle_convention",
+               "warnings", "outputs")
 
 ANGLE_CONVENTION_NOTE = ("degrees counter-clockwise from the image +x axis as displayed, in the frame of the input "
                          "analyzer angles (ring readings stay ring readings)")
 
 
 def advice_result(sums: dict, counts: dict, *, region, protect=None, extinction=None, analyzer_angles_deg,
-                  inputs, shifts_px=None, polarizer: str = "front") -> dict:
+                  inputs, shifts_px=None, polarizer: str = "front", angle_offset_deg: float = 0.0) -> dict:
     """The advice (what ``polarsky advise --json`` prints) from a region's summed Stokes vectors.
 
     Parameters
@@ -41,6 +42,9 @@ def advice_result(sums: dict, counts: dict, *, region, protect=None, extinction=
         Filter extinction ratio (None = ideal).
     analyzer_angles_deg, inputs, shifts_px, polarizer
         Facts of the bracket echoed in the result.
+    angle_offset_deg : float
+        Offset the estimate added to the analyzer angles as given (``--angle-offset`` and a
+        calibration's offset): the results are in the frame of the given angles plus it.
     """
     from ..core.stokes import diattenuation_from_extinction
 
@@ -67,30 +71,38 @@ def advice_result(sums: dict, counts: dict, *, region, protect=None, extinction=
     from .._version import __version__
 
     result.update(software_version=__version__, analyzer_angles_deg=[float(a) for a in analyzer_angles_deg],
+                  angle_offset_deg=round(float(angle_offset_deg), 6),
                   inputs=[str(p) for p in inputs], shifts_px=shifts_px, polarizer=polarizer,
                   angle_convention=ANGLE_CONVENTION_NOTE)
     return {k: result.get(k) for k in ADVICE_KEYS} | {"warnings": [], "outputs": None}
 
 
-def _turn_text(best: float, angles) -> str:
-    angles = np.mod(np.asarray(angles, dtype=np.float64), 180.0)
-    diffs = (best - angles + 90.0) % 180.0 - 90.0
+def _turn_text(best: float, angles, offset: float) -> str:
+    """How to turn the filter from the nearest setting of the bracket (settings as given)."""
+    given = np.asarray(angles, dtype=np.float64)
+    diffs = (best - (given + offset) + 90.0) % 180.0 - 90.0
     k = int(np.argmin(np.abs(diffs)))
     d = float(diffs[k])
     if abs(d) < 0.05:
-        return f"that is the {angles[k]:g} deg setting you already shot"
+        return f"that is the {given[k]:g} deg setting you already shot"
     sense = "counter-clockwise" if d > 0 else "clockwise"
-    return (f"from the {angles[k]:g} deg setting of your bracket, turn the filter {abs(d):.1f} deg {sense} "
+    return (f"from the {given[k]:g} deg setting of your bracket, turn the filter {abs(d):.1f} deg {sense} "
             "as seen on the displayed image (from behind the camera)")
 
 
-def advice_text(result: dict, angles) -> str:
+def advice_text(result: dict) -> str:
     """A short human answer from the advise result."""
     lines = []
     best = result["best_angle_deg"]
-    lines.append(f"Set the filter's transmission axis to {best:.1f} deg "
-                 "(counter-clockwise from the image's horizontal as displayed, on the scale of the angles you gave).")
-    lines.append(f"To get there: {_turn_text(best, angles)}.")
+    offset = result.get("angle_offset_deg") or 0.0
+    if abs(offset) < 1e-9:
+        lines.append(f"Set the filter's transmission axis to {best:.1f} deg (counter-clockwise from the image's "
+                     "horizontal as displayed, on the scale of the angles you gave).")
+    else:
+        lines.append(f"Set the filter's transmission axis to {best:.1f} deg (counter-clockwise from the image's "
+                     f"horizontal as displayed), which your filter scale reads as {(best - offset) % 180:.1f} deg "
+                     f"(the angles you gave plus {offset:+.2f} deg).")
+    lines.append(f"To get there: {_turn_text(best, result['analyzer_angles_deg'], offset)}.")
     dolp = result["region_dolp"]
     stops_i = result["reduction_stops_ideal"]
     removed = (1 - 2 ** -stops_i) * 100 if np.isfinite(stops_i) else 100.0

@@ -1,6 +1,6 @@
 """Sub-pixel registration of the frames of a hand-held bracket.
 
-Turning a polarizer changes the brightness of reflections and sky from frame to frame, so
+Turning the filter changes the brightness of reflections and sky from frame to frame, so
 frames are registered on their *gradient magnitude* (edges), not on raw intensity, with
 phase correlation (whose whitened cross-power spectrum ignores overall brightness).  Only
 translation is estimated: turning a screw-in filter shakes the camera by a few pixels.
@@ -32,7 +32,7 @@ MAX_ALIGN_SIDE = 2048
 def gradient_image(img: np.ndarray) -> np.ndarray:
     """Gradient magnitude (float32) of a 2-D image after light smoothing, log-compressed.
 
-    The log makes the result insensitive to the brightness changes a polarizer causes.
+    The log makes the result insensitive to the brightness changes the filter causes.
     """
     import cv2
 

@@ -30,7 +30,7 @@ import numpy as np
 from ..core.stokes import analysis_matrix, diattenuation_from_extinction
 from ..errors import InputError
 
-__all__ = ["Calibration", "FORMAT_VERSION", "FILE_NAME", "analysis_matrices"]
+__all__ = ["Calibration", "FORMAT_VERSION", "FILE_NAME", "analysis_matrices", "applied_analysis"]
 
 #: Version of the calibration file format.
 FORMAT_VERSION = "1"
@@ -120,3 +120,28 @@ def analysis_matrices(angles_deg, n_channels: int, *, extinction=None, angle_off
         applied["angle_offset_deg"].append(offset)
         applied["diattenuation"].append(d)
     return np.stack(mats), applied
+
+
+def applied_analysis(attrs: dict, n_channels: int):
+    """Angle offset and diattenuation per channel that a Stokes estimate already applied.
+
+    Read back from its ``analysis_matrix`` (rows ``1/2 [1, D cos 2(a + off), D sin 2(a + off)]``)
+    and ``analyzer_angles_deg``.
+    """
+    off = np.zeros(n_channels)
+    dia = np.ones(n_channels)
+    w = attrs.get("analysis_matrix")
+    angles = attrs.get("analyzer_angles_deg")
+    if w is None or angles is None:
+        return off, dia
+    w = np.asarray(w, dtype=np.float64)
+    a = np.deg2rad(np.asarray(angles, dtype=np.float64))
+    if w.ndim != 3 or w.shape[0] not in (1, n_channels) or w.shape[1] != a.size:
+        return off, dia
+    for c in range(n_channels):
+        row = w[min(c, w.shape[0] - 1)]
+        d = np.hypot(row[:, 1], row[:, 2]) / row[:, 0]
+        phase = 0.5 * np.arctan2(row[:, 2], row[:, 1]) - a
+        off[c] = float(np.rad2deg(np.angle(np.mean(np.exp(2j * phase))) / 2))
+        dia[c] = float(np.mean(d))
+    return off, dia

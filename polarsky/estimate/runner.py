@@ -21,14 +21,15 @@ __all__ = ["run_blocks", "block_rows", "use_compiled", "BLOCK_VALUES", "COMPILED
 
 #: Target number of float32 values per analyzer in one row block.
 BLOCK_VALUES = 1 << 20
-#: Frames with fewer values (pixels x channels) than this use the numpy reference path: it is
-#: as fast there, and loading the compiled kernels costs about a second.
-COMPILED_MIN_VALUES = 2_000_000
+#: Inputs with fewer values (pixels x channels x analyzers, or sensor pixels of a mosaic) than
+#: this use the numpy reference path: it is as fast there, and loading the compiled kernels
+#: costs about a second.
+COMPILED_MIN_VALUES = 4_000_000
 
 
-def use_compiled(shape, n_channels: int) -> bool:
-    """Whether a frame of ``shape`` is large enough for the compiled kernels."""
-    return int(np.prod(shape)) * int(n_channels) >= COMPILED_MIN_VALUES
+def use_compiled(n_values: int) -> bool:
+    """Whether an input of ``n_values`` values is large enough for the compiled kernels."""
+    return int(n_values) >= COMPILED_MIN_VALUES
 
 
 def block_rows(shape, n_channels: int) -> int:
@@ -51,7 +52,7 @@ def run_blocks(source, noise: NoiseModel, sinks, *, rows: int | None = None, com
     rows : int, optional
         Rows per block (default :func:`block_rows`).
     compiled : bool, optional
-        Force the compiled kernels on or off (default :func:`use_compiled`).
+        Force the compiled kernels on or off (default: the source's ``compiled``).
     progress : bool
         Show a progress bar on stderr when it is a terminal.
 
@@ -63,7 +64,7 @@ def run_blocks(source, noise: NoiseModel, sinks, *, rows: int | None = None, com
     h = source.shape[0]
     nc = len(source.channels)
     rows = max(1, int(rows or block_rows(source.shape, nc)))
-    compiled = use_compiled(source.shape, nc) if compiled is None else bool(compiled)
+    compiled = source.compiled if compiled is None else bool(compiled)
     noise_source = noise.resolved_source(source.n_analyzers)
     context = SMOOTH_RADIUS if noise_source == "residual" else 0
     t_est = t_sink = 0.0

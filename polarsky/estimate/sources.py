@@ -25,9 +25,12 @@ class BracketSource:
     bracket : Bracket
     w : ndarray (C, N, 3)
         Analysis matrices (:func:`polarsky.estimate.calibration.analysis_matrices`).
+    compiled : bool, optional
+        Use the compiled kernels (default: for inputs of at least
+        :data:`polarsky.estimate.runner.COMPILED_MIN_VALUES` values).
     """
 
-    def __init__(self, bracket, w):
+    def __init__(self, bracket, w, *, compiled=None):
         self.bracket = bracket
         self.w = np.asarray(w, dtype=np.float64)
         self.shape = bracket.shape
@@ -36,6 +39,11 @@ class BracketSource:
         self.counts = np.zeros((bracket.n, 2), dtype=np.int64)
         scale = bracket.exposure_scale
         self.weights = None if np.allclose(scale, 1.0) else np.asarray(scale, dtype=np.float64)
+        from .runner import use_compiled
+
+        #: use the compiled kernels (large inputs)
+        n_values = int(np.prod(self.shape)) * len(self.channels) * bracket.n
+        self.compiled = use_compiled(n_values) if compiled is None else bool(compiled)
 
     def block(self, r0: int, r1: int, own=None):
         """``(BlockInput, first analyzer's intensities (C, h, w))`` of rows ``r0:r1``.
@@ -63,12 +71,14 @@ class MosaicSource:
     full_scale : float
         Native full scale (DN), for the noise model.
     srgb : bool
-    compiled : bool
-        Allow the compiled fused pass (mono, no per-pixel calibration).
+    compiled : bool, optional
+        Use the compiled kernels (default: for sensors of at least
+        :data:`polarsky.estimate.runner.COMPILED_MIN_VALUES` pixels); the fused pass is used for
+        mono sensors without per-pixel calibration.
     """
 
     def __init__(self, values, invalid, layout, method, calibration=None, *, full_scale=65535.0, srgb=False,
-                 compiled=True):
+                 compiled=None):
         from ..mosaic.decode import check_calibration, decode_margin, position_matrix
         from ..mosaic.fast import FAST_METHODS
         from ..mosaic.newton import newton_eps
@@ -92,7 +102,10 @@ class MosaicSource:
         self.margin = decode_margin(layout, method)
         self.level = float(np.mean(np.abs(self.values)))
         self.eps = newton_eps(self.level)
-        self.fast = bool(compiled and layout.colour is None and not self.per_pixel and method.name in FAST_METHODS)
+        from .runner import use_compiled
+
+        self.compiled = use_compiled(self.values.size) if compiled is None else bool(compiled)
+        self.fast = bool(self.compiled and layout.colour is None and not self.per_pixel and method.name in FAST_METHODS)
 
     def _window(self, r0: int, r1: int):
         k, cell = self.method.scale, self.layout.cell

@@ -5,7 +5,7 @@ inspector photographs a submerged mooring plate through the water surface.  The 
 of the frame is sky and a quay wall; the lower part is water whose surface reflects the
 bright sky (Fresnel reflection, strongly polarized with the E-vector along the surface, here
 tilted by the camera's roll) over light coming up from the plate (weakly polarized the other
-way).  The bracket is four 8-bit sRGB PNG frames through an ideal polarizer at 0/45/90/135
+way).  The bracket is four 8-bit sRGB PNG frames through an ideal filter at 0/45/90/135
 degrees, with hand-held shake between frames and camera noise.  The true Stokes maps are
 known, so the recommended filter angle can be compared with the truth.
 

@@ -52,8 +52,11 @@ class Opened:
     timing: dict = field(default_factory=dict)
 
 
-def open_source(frames, settings) -> Opened:
-    """Read a bracket or mosaic frames as ``settings`` say, ready to estimate."""
+def open_source(frames, settings, *, compiled: bool | None = None) -> Opened:
+    """Read a bracket or mosaic frames as ``settings`` say, ready to estimate.
+
+    ``compiled`` forces the compiled kernels on or off (default: by the input's size).
+    """
     from ..core.noise import NoiseModel
     from ..read.calibration_file import read_calibration
 
@@ -62,11 +65,11 @@ def open_source(frames, settings) -> Opened:
     noise = NoiseModel(gain_e_per_dn=est.gain_e_per_dn, read_noise_dn=est.read_noise_dn, source=est.noise)
     cal = None if est.calibration is None else read_calibration(est.calibration)
     if settings.mosaic.mosaic is not None:
-        return _open_mosaic(frames, settings, cal, noise)
-    return _open_bracket(frames, settings, cal, noise)
+        return _open_mosaic(frames, settings, cal, noise, compiled)
+    return _open_bracket(frames, settings, cal, noise, compiled)
 
 
-def _open_bracket(frames, settings, cal, noise) -> Opened:
+def _open_bracket(frames, settings, cal, noise, compiled) -> Opened:
     from ..core.stokes import check_angles
     from ..estimate.calibration import analysis_matrices
     from ..estimate.sources import BracketSource
@@ -96,12 +99,11 @@ def _open_bracket(frames, settings, cal, noise) -> Opened:
         "extinction_ratio": est.extinction, "analysis_matrix": np.round(w, 8).tolist(),
         "calibration": calibration_facts(cal), "aligned": bool(est.align), "shifts_px": shifts,
     }
-    return Opened(source=BracketSource(bracket, w), noise=noise, facts=facts, bracket=bracket,
+    return Opened(source=BracketSource(bracket, w, compiled=compiled), noise=noise, facts=facts, bracket=bracket,
                   inputs=facts["inputs"], timing={"read": t_read, "align": t_align})
 
 
-def _open_mosaic(frames, settings, cal, noise) -> Opened:
-    from ..estimate.runner import use_compiled
+def _open_mosaic(frames, settings, cal, noise, compiled) -> Opened:
     from ..estimate.sources import MosaicSource
     from ..errors import InputError
     from ..mosaic.layout import check_frame_shape, parse_mosaic
@@ -123,8 +125,7 @@ def _open_mosaic(frames, settings, cal, noise) -> Opened:
     info = stack.info
     k = method.scale
     source = MosaicSource(stack.values, stack.invalid, layout, method, cal, full_scale=info["white_level"],
-                          srgb=info["transfer"] == "srgb",
-                          compiled=use_compiled((hs // k, ws // k), len(layout.channels)))
+                          srgb=info["transfer"] == "srgb", compiled=compiled)
     facts = {
         "source_kind": "polarization mosaic", "inputs": info["files"], "frames": info["n_frames"],
         "analyzer_angles_deg": list(layout.angles_deg), "angle_source": "mosaic cell",

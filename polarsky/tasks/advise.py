@@ -38,6 +38,7 @@ def run_advise(frames=(), out_dir=None, settings=None, *, progress: bool = False
     from ..advice.result import advice_result
     from ..core.stokes import diattenuation_from_extinction
     from ..errors import InputError
+    from ..estimate.calibration import applied_analysis
     from ..estimate.runner import run_blocks
     from ..estimate.sinks import PreviewSink
     from ..write.jsonio import write_json
@@ -59,9 +60,11 @@ def run_advise(frames=(), out_dir=None, settings=None, *, progress: bool = False
         preview = PreviewSink(src.shape, max_side=1200)
         run_blocks(src, op.noise, [sink, preview] if out_dir is not None else [sink], progress=progress)
         extinction = settings.estimate.extinction
+        offsets, _ = applied_analysis(op.facts, len(src.channels))
         result = advice_result(sink.sums, sink.counts, region=adv.region, protect=adv.protect, extinction=extinction,
                                analyzer_angles_deg=op.facts["analyzer_angles_deg"], inputs=op.inputs,
-                               shifts_px=op.facts.get("shifts_px"), polarizer=op.facts["polarizer"])
+                               shifts_px=op.facts.get("shifts_px"), polarizer=op.facts["polarizer"],
+                               angle_offset_deg=float(offsets.mean()))
         result["warnings"] = caught.messages()
         if out_dir is not None:
             d = 1.0 if extinction is None else diattenuation_from_extinction(extinction)

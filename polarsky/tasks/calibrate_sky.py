@@ -32,7 +32,7 @@ import numpy as np
 
 from ..conventions import SUN_CAUTION
 from ..errors import InputError, PolarskyWarning
-from ..estimate.calibration import Calibration
+from ..estimate.calibration import Calibration, applied_analysis
 from ..sky.features import feature_bands
 from ..sky.fit import fit_dolp_max, sky_mask
 from ..sky.models import get_model
@@ -41,32 +41,7 @@ from ..sky.position_fit import fit_position_offsets, position_samples
 from ..sky.skymap import model_maps
 from .sky import prepare_sky
 
-__all__ = ["split_brackets", "fit_sky_calibration", "applied_analysis"]
-
-
-def applied_analysis(attrs: dict, n_channels: int):
-    """Angle offset and diattenuation per channel that a Stokes estimate already applied.
-
-    Read back from its ``analysis_matrix`` (rows ``1/2 [1, D cos 2(a + off), D sin 2(a + off)]``)
-    and ``analyzer_angles_deg``.
-    """
-    off = np.zeros(n_channels)
-    dia = np.ones(n_channels)
-    w = attrs.get("analysis_matrix")
-    angles = attrs.get("analyzer_angles_deg")
-    if w is None or angles is None:
-        return off, dia
-    w = np.asarray(w, dtype=np.float64)
-    a = np.deg2rad(np.asarray(angles, dtype=np.float64))
-    if w.ndim != 3 or w.shape[0] not in (1, n_channels) or w.shape[1] != a.size:
-        return off, dia
-    for c in range(n_channels):
-        row = w[min(c, w.shape[0] - 1)]
-        d = np.hypot(row[:, 1], row[:, 2]) / row[:, 0]
-        phase = 0.5 * np.arctan2(row[:, 2], row[:, 1]) - a
-        off[c] = float(np.rad2deg(np.angle(np.mean(np.exp(2j * phase))) / 2))
-        dia[c] = float(np.mean(d))
-    return off, dia
+__all__ = ["split_brackets", "fit_sky_calibration", "run_calibrate_sky"]
 
 
 def _none_nan(x):

@@ -198,7 +198,7 @@ def stokes_from_mosaic_values(values, invalid=None, settings=None, *, full_scale
 
     from ..core.noise import NoiseModel
     from ..errors import InputError
-    from ..estimate.runner import run_blocks, use_compiled
+    from ..estimate.runner import run_blocks
     from ..estimate.sinks import MemorySink
     from ..estimate.sources import MosaicSource
     from ..mosaic.layout import check_frame_shape, parse_mosaic
@@ -217,8 +217,7 @@ def stokes_from_mosaic_values(values, invalid=None, settings=None, *, full_scale
     check_frame_shape(values.shape, layout)
     cal = None if est.calibration is None else read_calibration(est.calibration)
     k = method.scale
-    src = MosaicSource(values, invalid, layout, method, cal, full_scale=full_scale, srgb=srgb,
-                       compiled=use_compiled((values.shape[0] // k, values.shape[1] // k), len(layout.channels)))
+    src = MosaicSource(values, invalid, layout, method, cal, full_scale=full_scale, srgb=srgb)
     noise = NoiseModel(gain_e_per_dn=est.gain_e_per_dn, read_noise_dn=est.read_noise_dn, source=est.noise)
     mem = MemorySink(src.shape, len(src.channels), _names(4))
     info = run_blocks(src, noise, [mem])

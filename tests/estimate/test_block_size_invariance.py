@@ -20,11 +20,11 @@ from tests.synth import render_frames, smooth_scene, write_pngs
 
 
 def _products(frames, options, rows, compiled):
-    op = open_source(frames, Settings.from_options(options))
+    op = open_source(frames, Settings.from_options(options), compiled=compiled)
     src = op.source
     names = [n for n in PRODUCTS if n != "residual" or src.n_analyzers > 3]
     sink = MemorySink(src.shape, len(src.channels), names)
-    run_blocks(src, op.noise, [sink], rows=rows, compiled=compiled)
+    run_blocks(src, op.noise, [sink], rows=rows)
     return sink.arrays
 
 
