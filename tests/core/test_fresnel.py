@@ -5,7 +5,7 @@ from __future__ import annotations
 import numpy as np
 import pytest
 
-from polarsky.fresnel import brewster_angle_deg, fresnel_reflectance, reflected_dolp, reflection_stokes
+from polarsky.core.fresnel import brewster_angle_deg, fresnel_reflectance, reflected_dolp, reflection_stokes
 
 
 def test_brewster_angles():

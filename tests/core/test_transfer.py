@@ -5,7 +5,7 @@ from __future__ import annotations
 import numpy as np
 import pytest
 
-from polarsky.transfer import linear_to_srgb, srgb_lut, srgb_to_linear
+from polarsky.core.transfer import linear_to_srgb, srgb_lut, srgb_to_linear
 
 
 def test_iec_61966_2_1_values():
@@ -29,7 +29,7 @@ def test_round_trip_and_lut():
 def test_stokes_on_encoded_values_is_biased():
     # Polarimetry must run on linear values (common practice): the Stokes formulas applied to
     # sRGB-encoded values give a wrong DoLP, decoding first gives the right one.
-    from polarsky import stokes as sk
+    from polarsky.core import stokes as sk
 
     s = np.array([0.6, 0.2, 0.1])
     w = sk.analysis_matrix([0, 45, 90, 135])
