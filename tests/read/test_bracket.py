@@ -1,21 +1,15 @@
-"""Reading frames: formats, radiometry, angles, manifests, exposure, raw files."""
+"""A bracket: frames made linear, angles from names, options or a manifest, exposure normalization."""
 
 from __future__ import annotations
 
 import numpy as np
 import pytest
 
-from polarsky.errors import InputError, PolarskyWarning
-from polarsky.ingest import angle_from_name, load_bracket, read_frame, read_manifest
-from polarsky.transfer import srgb_to_linear
-from tests.synth import render_frames, smooth_scene, write_bayer_dng, write_pngs, write_tiffs
-
-
-def test_angle_tokens():
-    assert angle_from_name("pier_045deg.tif") == 45.0
-    assert angle_from_name("a_22.5deg.png") == 22.5
-    assert angle_from_name("no_angle.png") is None
-    assert angle_from_name("two_0deg_90deg.png") is None
+from polarsky.errors import InputError
+from polarsky.options.settings import ReadSettings, Settings
+from polarsky.read.bracket import load_bracket
+from polarsky.read.manifest import read_manifest
+from tests.synth import render_frames, smooth_scene, write_pngs, write_tiffs
 
 
 @pytest.mark.parametrize("bits", [8, 16])
@@ -37,7 +31,7 @@ def test_transfer_override(tmp_path):
     s = smooth_scene(8, 8)
     frames = render_frames(s, [0, 60, 120])
     paths = write_pngs(tmp_path, frames, [0, 60, 120], bits=8)
-    b = load_bracket(paths, transfer="linear")
+    b = load_bracket(paths, ReadSettings(transfer="linear"))
     vals, _, _ = b.linear_block(0, 8)
     np.testing.assert_allclose(vals, frames, atol=2.5e-3)
 
@@ -61,34 +55,6 @@ def test_tiff_rgb_and_jpeg(tmp_path):
     assert bj.encodings == ["srgb"] * 3 and bj.n_channels == 3
 
 
-def test_raw_dng_path_matches_values_written(tmp_path):
-    # The DNG's own BlackLevel/WhiteLevel define the linear scale: (v - black)/(white - black).
-    # A flat CFA with one value per colour must decode (LibRaw, gamma 1, no auto-brightening,
-    # adjust_maximum_thr=0) to exactly those normalized values.
-    black, white = 512, 16383
-    cfa = np.zeros((24, 32), np.uint16)
-    vals = {"R": 4000, "G": 8000, "B": 12000}
-    cfa[0::2, 0::2] = vals["R"]
-    cfa[0::2, 1::2] = vals["G"]
-    cfa[1::2, 0::2] = vals["G"]
-    cfa[1::2, 1::2] = vals["B"]
-    p = write_bayer_dng(tmp_path / "flat.dng", cfa, black=black, white=white)
-    fr = read_frame(p)
-    assert fr.kind == "raw" and fr.encoding == "linear" and fr.data.shape == (3, 24, 32)
-    got = fr.data[:, 4:-4, 4:-4].astype(np.float64) / 65535
-    for c, key in enumerate("RGB"):
-        assert np.median(got[c]) == pytest.approx((vals[key] - black) / (white - black), abs=2e-4)
-
-
-def test_raw_bright_frame_is_not_rescaled(tmp_path):
-    # With LibRaw's maximum adjustment on, a frame whose brightest value is below WhiteLevel gets
-    # stretched; with adjust_maximum_thr=0 a value of 70% stays 70%.
-    black, white = 0, 16383
-    cfa = np.full((24, 24), int(0.7 * white), np.uint16)
-    fr = read_frame(write_bayer_dng(tmp_path / "b.dng", cfa, black=black, white=white))
-    assert np.median(fr.data) / 65535 == pytest.approx(0.7, abs=1e-3)
-
-
 def test_manifest_with_exposure(tmp_path):
     s = smooth_scene(12, 12)
     frames = render_frames(s, [0, 45, 90, 135])
@@ -97,36 +63,26 @@ def test_manifest_with_exposure(tmp_path):
     paths = write_pngs(tmp_path, scaled, [0, 45, 90, 135], bits=16, stem="f")
     man = tmp_path / "manifest.csv"
     man.write_text("file,angle_deg,exposure_s\n" + "".join(f"{p.name},{a},{e}\n" for p, a, e in zip(paths, [0, 45, 90, 135], exposure)))
-    files, angles, exps = read_manifest(man)
-    assert angles == [0, 45, 90, 135] and exps[1] == pytest.approx(0.02)
-    b = load_bracket(manifest=man)
+    m = read_manifest(man)
+    assert m.files == tuple(paths) and m.angles_deg == (0, 45, 90, 135) and m.exposures_s[1] == pytest.approx(0.02)
+    b = load_bracket((), ReadSettings(manifest=man))
     assert b.exposure_source == "manifest"
     np.testing.assert_allclose(b.exposure_scale, [1, 2, 1, 0.5])
     vals, _, _ = b.linear_block(0, 12)
     np.testing.assert_allclose(vals, frames * 0.5, atol=1e-4)
 
 
-def test_saturated_pixels_are_masked_and_counted(tmp_path):
-    from polarsky.pipeline import stokes_from_files
-
-    s = smooth_scene(10, 10)
-    frames = render_frames(s, [0, 45, 90, 135])
-    frames[1, 0, 2:4, 2:5] = 1.0
-    paths = write_pngs(tmp_path, frames, [0, 45, 90, 135])
-    with pytest.warns(PolarskyWarning, match=r"6 pixel values saturated .* scene_045deg.png were masked"):
-        ds = stokes_from_files(paths)
-    assert not ds["valid"].values[0, 2:4, 2:5].any()
-    assert np.isnan(ds["dolp"].values[0, 2, 2])
-    assert ds["valid"].values.sum() == 100 - 6
-
-
 def test_angles_option_and_count_mismatch(tmp_path):
     s = smooth_scene(8, 8)
     paths = write_pngs(tmp_path, render_frames(s, [0, 45, 90]), [0, 45, 90], stem="x")
-    b = load_bracket(paths, angles_deg="10,55,100")
+    b = load_bracket(paths, Settings.from_options({"angles": "10,55,100"}).read)
     np.testing.assert_allclose(b.angles_deg, [10, 55, 100])
+    assert b.angle_source == "option"
     with pytest.raises(InputError, match="2 angle"):
-        load_bracket(paths, angles_deg="0,45")
+        load_bracket(paths, Settings.from_options({"angles": "0,45"}).read)
+    # the same ranges as every command: 10:110:45 = 10, 55, 100
+    np.testing.assert_allclose(load_bracket(paths, Settings.from_options({"angles": "10:110:45"}).read).angles_deg,
+                               [10, 55, 100])
 
 
 def test_exposure_normalization_from_exif(tmp_path):

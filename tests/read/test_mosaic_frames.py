@@ -1,12 +1,15 @@
 """Reading mosaic frames: containers, bit depths, black level, transfer, DNG, averaging."""
 
+import json
+
 import numpy as np
 import pytest
 
+from polarsky.core.transfer import srgb_to_linear
 from polarsky.errors import InputError, PolarskyWarning
-from polarsky.mosaic import stokes_from_mosaic_files
-from polarsky.mosaic.io import read_mosaic_frame, read_mosaic_stack, srgb_decode
-from polarsky.mosaic.synthetic import mosaic_sample, scene_uniform, write_mosaic_dng, write_mosaic_png
+from polarsky.read.mosaic_frames import read_mosaic_frame, read_mosaic_stack
+from polarsky.synthetic.mosaic import mosaic_sample, scene_uniform, write_mosaic_dng, write_mosaic_png
+from polarsky.tasks.stokes import stokes_from_files
 
 H, W = 48, 64
 LAY = "90,45;135,0"
@@ -22,7 +25,7 @@ def test_16bit_png_linear(tmp_path):
     v, inv, info = read_mosaic_frame(p)
     assert info["transfer"] == "linear" and info["bit_depth"] == 16 and not inv.any()
     np.testing.assert_allclose(v, raw, atol=1 / 65535)
-    ds = stokes_from_mosaic_files([p], mosaic=LAY, demosaic="superpixel")
+    ds = stokes_from_files([p], mosaic=LAY, demosaic="superpixel")
     np.testing.assert_allclose(ds.dolp.values, 0.4, atol=1e-3)
     np.testing.assert_allclose(ds.aolp.values, 25.0, atol=0.1)
 
@@ -40,8 +43,9 @@ def test_8bit_png_is_srgb_by_default(tmp_path):
 
 
 def test_srgb_decode_check_value():
-    # REFERENCES.md 7 [X]: decode(0.5) = 0.21404114 (IEC 61966-2-1:1999)
-    np.testing.assert_allclose(srgb_decode(np.float32(0.5)), 0.21404114, atol=1e-6)
+    # REFERENCES.md 7 [X]: decode(0.5) = 0.21404114 (IEC 61966-2-1:1999); mosaic frames use the
+    # same transfer function as brackets (polarsky.core.transfer)
+    np.testing.assert_allclose(srgb_to_linear(np.float32(0.5)), 0.21404114, atol=1e-6)
 
 
 def test_12bit_in_16bit_container(tmp_path):
@@ -86,9 +90,9 @@ def test_saturated_pixels_are_masked_with_a_count(tmp_path):
     raw[10, 10] = 1.0
     p = write_mosaic_png(tmp_path / "sat.png", raw)
     with pytest.warns(PolarskyWarning, match="1 pixels saturated and 0 at the black level in sat.png were masked"):
-        ds = stokes_from_mosaic_files([p], mosaic=LAY, demosaic="bilinear")
+        ds = stokes_from_files([p], mosaic=LAY, demosaic="bilinear")
     assert not bool(ds.valid.values[0, 10, 10]) and int((~ds.valid.values).sum()) == 9
-    assert ds.attrs["masked_raw_pixels"] == 1
+    assert json.loads(ds.attrs["saturated_px"]) == [1] and json.loads(ds.attrs["black_px"]) == [0]
 
 
 def test_dng_through_rawpy(tmp_path):
@@ -97,7 +101,7 @@ def test_dng_through_rawpy(tmp_path):
     v, inv, info = read_mosaic_frame(p)
     assert info["format"] == "dng" and info["white_level"] == 4095 and info["black_level"] == 64
     np.testing.assert_allclose(v, raw, atol=1 / 4000)
-    ds = stokes_from_mosaic_files([p], mosaic=LAY)
+    ds = stokes_from_files([p], mosaic=LAY)
     np.testing.assert_allclose(ds.dolp.values, 0.4, atol=2e-3)
 
 
@@ -109,8 +113,8 @@ def test_stack_is_averaged(tmp_path):
     avg = read_mosaic_stack(paths)
     assert avg.info["n_frames"] == 8
     assert np.std(avg.values - raw) < 0.5 * np.std(one - raw)
-    ds = stokes_from_mosaic_files(paths, mosaic=LAY)
-    assert ds.attrs["n_frames_averaged"] == 8
+    ds = stokes_from_files(paths, mosaic=LAY)
+    assert ds.attrs["frames"] == 8
 
 
 def test_bad_files(tmp_path):
@@ -122,7 +126,7 @@ def test_bad_files(tmp_path):
     with pytest.raises(InputError, match="3 colour channels"):
         read_mosaic_frame(tmp_path / "rgb.png")
     (tmp_path / "junk.png").write_bytes(b"not an image")
-    with pytest.raises(InputError, match="cannot be read as an image"):
+    with pytest.raises(InputError, match="junk.png cannot be decoded: it does not start with the PNG signature"):
         read_mosaic_frame(tmp_path / "junk.png")
     a = write_mosaic_png(tmp_path / "a.png", _raw())
     b = write_mosaic_png(tmp_path / "b.png", _raw()[:, :32])
@@ -133,10 +137,10 @@ def test_bad_files(tmp_path):
 def test_odd_sized_frame_file(tmp_path):
     p = write_mosaic_png(tmp_path / "odd.png", _raw()[:, :63])
     with pytest.raises(InputError, match="63x48 pixels, not a multiple of the 2x2"):
-        stokes_from_mosaic_files([p], mosaic=LAY)
+        stokes_from_files([p], mosaic=LAY)
 
 
 def test_max_pixels(tmp_path):
     p = write_mosaic_png(tmp_path / "m.png", _raw())
     with pytest.raises(InputError, match="above --max-pixels 1000"):
-        stokes_from_mosaic_files([p], mosaic=LAY, max_pixels=1000)
+        stokes_from_files([p], mosaic=LAY, max_pixels=1000)
