@@ -110,7 +110,7 @@ def test_fisheye_outside_circle_sees_nothing():
 
 
 def test_fisheye_custom_circle():
-    lens = make_lens("fisheye-equisolid", 64, 48, fov_deg=150, circle_center_px=(30, 20), circle_radius_px=18)
+    lens = make_lens("fisheye-equisolid", 64, 48, fov_deg=150, circle_centre_px=(30, 20), circle_radius_px=18)
     u, v, _ = lens.project(np.array([[0.0], [0.0], [1.0]]))
     assert (u[0], v[0]) == (30.0, 20.0)
 
@@ -122,7 +122,7 @@ def test_fisheye_custom_circle():
     ({"name": "pinhole", "focal_px": 10, "distortion": [0.1, 0.2]}, "4, 5 or 8"),
     ({"name": "fisheye-equidistant"}, "needs --fov-deg"),
     ({"name": "fisheye-equisolid", "fov_deg": 180, "distortion": [0, 0, 0, 0]}, "pinhole only"),
-    ({"name": "cylinder"}, "not known"),
+    ({"name": "cylinder"}, "--lens .cylinder. is not a known lens model; choose one of pinhole"),
 ])
 def test_bad_lens_options(kw, match):
     name = kw.pop("name")

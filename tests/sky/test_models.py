@@ -4,7 +4,8 @@ import numpy as np
 import pytest
 
 from polarsky.geometry import make_lens
-from polarsky.sky.models import SKY_MODELS, get_model
+from polarsky.registries import SKY_MODELS
+from polarsky.sky.models import get_model
 from polarsky.sky.rayleigh import (RHO_AIR_YOUNG1980, dolp_max_bound, rayleigh_dolp,
                                    rayleigh_dolp_depolarized)
 from polarsky.sky.skymap import SkyGeometry, model_maps
@@ -85,7 +86,7 @@ def test_horizon_is_never_sky():
 
 def test_model_registry():
     assert "rayleigh" in SKY_MODELS
-    with pytest.raises(InputError, match="sky model 'nope'"):
+    with pytest.raises(InputError, match="--model 'nope' is not a known sky model; choose one of rayleigh"):
         get_model("nope")
 
 
