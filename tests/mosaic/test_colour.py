@@ -3,11 +3,12 @@
 import numpy as np
 import pytest
 
-from polarsky.calibration import Calibration
 from polarsky.errors import InputError
-from polarsky.mosaic import DEMOSAIC_METHODS, stokes_from_mosaic_values
+from polarsky.estimate.calibration import Calibration
 from polarsky.mosaic.layout import BAYER_ORDERS, parse_mosaic
-from polarsky.mosaic.synthetic import mosaic_sample, scene_uniform
+from polarsky.registries import DEMOSAIC_METHODS
+from polarsky.synthetic.mosaic import mosaic_sample, scene_uniform
+from polarsky.tasks.stokes import stokes_from_files, stokes_from_mosaic_values
 
 H, W = 48, 64
 LAY = "90,45;135,0"
@@ -40,7 +41,9 @@ def test_colour_frame_not_multiple_of_four():
         stokes_from_mosaic_values(raw, mosaic=LAY, mosaic_colour="RGGB")
 
 
-def test_colour_sky_offsets_per_position_and_channel():
+def test_colour_sky_offsets_per_position_and_channel(tmp_path):
+    from polarsky.write.calibration_file import write_calibration
+
     lay = parse_mosaic(LAY, "RGGB")
     off = np.array([[2.0, 1.0, -1.0], [-3.0, 0.5, 2.0], [1.0, -1.5, 0.0], [0.5, 2.5, -2.0]])  # (position, channel)
     s = _colour_scene()
@@ -49,7 +52,7 @@ def test_colour_sky_offsets_per_position_and_channel():
     pos = np.tile(np.arange(4).reshape(2, 2), (H // 2, W // 2))
     ang = np.asarray(lay.angles_deg)[pos] + off[pos, cc]
     raw = mosaic_sample(s, lay, angle_deg=ang, dtype=np.float64)
-    cal = Calibration(kind="sky", angle_offset_deg=off)
+    cal = write_calibration(tmp_path / "calibration.nc", Calibration(kind="sky", angle_offset_deg=off))
     ds = stokes_from_mosaic_values(raw, mosaic=LAY, mosaic_colour="RGGB", demosaic="superpixel", calibration=cal)
     np.testing.assert_allclose(ds.aolp.values[:, 0, 0], [10.0, 50.0, 140.0], atol=1e-3)
 
@@ -65,11 +68,10 @@ def test_colour_edge_keeps_colours_apart():
 
 
 def test_colour_mosaic_from_file(tmp_path):
-    from polarsky.mosaic import stokes_from_mosaic_files
-    from polarsky.mosaic.synthetic import write_mosaic_png
+    from polarsky.synthetic.mosaic import write_mosaic_png
 
     p = write_mosaic_png(tmp_path / "c.png", mosaic_sample(_colour_scene(), parse_mosaic(LAY, "BGGR")))
-    ds = stokes_from_mosaic_files([p], mosaic=LAY, mosaic_colour="bggr", demosaic="newton")
+    ds = stokes_from_files([p], mosaic=LAY, mosaic_colour="bggr", demosaic="newton")
     assert list(ds.channel.values) == ["R", "G", "B"] and ds.attrs["mosaic_colour"] == "BGGR"
     np.testing.assert_allclose(ds.dolp.values[:, 5, 5], [0.2, 0.4, 0.6], atol=2e-3)
 

@@ -3,12 +3,13 @@
 import numpy as np
 import pytest
 
-from polarsky.mosaic import DEMOSAIC_METHODS, stokes_from_mosaic_values
+from polarsky.core.stokes import analysis_matrix, dolp_aolp, fit_stokes
+from polarsky.errors import InputError
 from polarsky.mosaic.layout import parse_mosaic
 from polarsky.mosaic.methods import BILINEAR_KERNEL, demosaic, validate_method
-from polarsky.mosaic.synthetic import mosaic_sample, scene_edges, scene_uniform
-from polarsky.stokes import analysis_matrix, dolp_aolp, fit_stokes
-from polarsky.errors import InputError
+from polarsky.registries import DEMOSAIC_METHODS
+from polarsky.synthetic.mosaic import mosaic_sample, scene_edges, scene_uniform
+from polarsky.tasks.stokes import stokes_from_mosaic_values
 
 H, W = 48, 64
 BASE = np.array([[90.0, 45.0], [135.0, 0.0]])
@@ -126,20 +127,23 @@ def test_float32_in_float32_out_and_shapes(method):
 
 @pytest.mark.parametrize("layout", ["90,45;135,0", "10,50;100,150"])
 def test_newton_kernels_equal_numpy_reference(layout):
-    import polarsky.mosaic.methods as mm
+    from polarsky.core.stokes import solve_matrix
+    from polarsky.mosaic import newton
     from polarsky.mosaic.decode import position_matrix
-    from polarsky.stokes import solve_matrix
 
     raw = mosaic_sample(scene_edges(64, 48), layout)
-    ref = mm.demosaic_newton_numpy(raw)
-    np.testing.assert_allclose(mm.demosaic_newton_li2019(raw), ref, rtol=1e-5, atol=1e-6)
-    pm = solve_matrix(position_matrix(parse_mosaic(layout)))
-    np.testing.assert_allclose(mm.newton_stokes_li2019(raw, pm), fit_stokes(ref, position_matrix(parse_mosaic(layout))),
-                               rtol=1e-5, atol=1e-6)
+    ref = newton.demosaic_newton_numpy(raw)
+    np.testing.assert_allclose(newton.demosaic_newton_li2019(raw), ref, rtol=1e-5, atol=1e-6)
+    w = position_matrix(parse_mosaic(layout))
+    s, mean, rss = (np.empty(shape, np.float32) for shape in ((3,) + raw.shape, raw.shape, raw.shape))
+    newton.newton_fit_li2019(raw, solve_matrix(w).astype(np.float32), w.astype(np.float32), s, mean, rss,
+                             eps=newton.newton_eps(float(np.mean(np.abs(raw)))))
+    np.testing.assert_allclose(s, fit_stokes(ref, w), rtol=1e-5, atol=1e-6)
+    np.testing.assert_allclose(mean, ref.mean(axis=0), rtol=1e-5, atol=1e-6)
 
 
 def test_unknown_method():
-    with pytest.raises(InputError, match="demosaic method 'cubic' is unknown; choose one of superpixel, bilinear, newton"):
+    with pytest.raises(InputError, match="--demosaic 'cubic' is not a known demosaic method; choose one of superpixel, bilinear, newton"):
         validate_method("cubic")
 
 
@@ -154,15 +158,17 @@ def test_dataset_records_mosaic_and_method():
 
 
 @pytest.mark.parametrize("layout", LAYOUT_TEXT[:4])
-def test_sky_offsets_per_position_are_applied(layout):
-    from polarsky.calibration import Calibration
+def test_sky_offsets_per_position_are_applied(layout, tmp_path):
+    from polarsky.estimate.calibration import Calibration
+    from polarsky.write.calibration_file import write_calibration
 
     lay = parse_mosaic(layout)
     offsets = np.array([3.0, -4.0, 1.4, -0.8])
     true_angles = np.tile((np.array(lay.angles_deg) + offsets).reshape(2, 2), (H // 2, W // 2))
     s = scene_uniform(H, W, s0=0.6, dolp=0.5, aolp_deg=70.0)
     raw = mosaic_sample(s, lay, angle_deg=true_angles)
-    cal = Calibration(kind="sky", angle_offset_deg=offsets[:, None])  # dims (position, channel)
+    cal = write_calibration(tmp_path / "calibration.nc",
+                            Calibration(kind="sky", angle_offset_deg=offsets[:, None]))  # dims (position, channel)
     for method in DEMOSAIC_METHODS:
         ds = stokes_from_mosaic_values(raw, mosaic=layout, demosaic=method, calibration=cal)
         np.testing.assert_allclose(ds.aolp.values, 70.0, atol=1e-3)
@@ -175,14 +181,17 @@ def test_sky_offsets_per_position_are_applied(layout):
 @pytest.mark.parametrize("method", list(DEMOSAIC_METHODS))
 @pytest.mark.parametrize("layout", ["90,45;135,0", "10,50;100,150"])
 def test_fast_paths_equal_fit_of_decoded_channels(method, layout):
-    from polarsky.mosaic.decode import fast_stokes, fast_stokes_maps, position_matrix
+    from polarsky.core.stokes import residual_rms
+    from polarsky.mosaic.decode import position_matrix
+    from polarsky.mosaic.fast import fast_fit
 
     lay = parse_mosaic(layout)
     raw = mosaic_sample(scene_edges(H, W), lay)
     w = position_matrix(lay)
-    ref = fit_stokes(demosaic(raw, method), w)
-    np.testing.assert_allclose(fast_stokes(raw, w, method), ref, atol=1e-6)
-    s, d, a = fast_stokes_maps(raw, w, method)
-    d_ref, a_ref = dolp_aolp(ref)
-    np.testing.assert_allclose(d, d_ref, atol=1e-5)
-    np.testing.assert_allclose((a - a_ref + 90) % 180 - 90, 0, atol=1e-3)
+    channels = demosaic(raw, method)
+    ref = fit_stokes(channels, w)
+    s, mean, rss = fast_fit(raw, w, method)
+    np.testing.assert_allclose(s, ref, atol=1e-6)
+    np.testing.assert_allclose(mean, channels.mean(axis=0), atol=1e-6)
+    # 4 analyzers, 3 unknowns: one degree of freedom, rss = residual_rms^2
+    np.testing.assert_allclose(rss, residual_rms(channels, w, ref) ** 2, rtol=1e-3, atol=1e-9)
