@@ -1,22 +1,18 @@
 """Per-pixel bench calibration (Powell & Gruev 2013 calibration-matrix approach)."""
 
 import json
-import subprocess
-import sys
-from pathlib import Path
 
 import numpy as np
 import pytest
 
-from cli.main import main
-from polarsky.calibration import Calibration, read_calibration, write_calibration
 from polarsky.errors import InputError
-from polarsky.mosaic import stokes_from_mosaic_files, stokes_from_mosaic_values
+from polarsky.estimate.calibration import Calibration
 from polarsky.mosaic.flatcal import fit_flat, flat_calibration, flat_summary
 from polarsky.mosaic.layout import parse_mosaic
-from polarsky.mosaic.synthetic import bench_frames, mosaic_sample, scene_gradient, write_mosaic_png
-
-ROOT = Path(__file__).resolve().parents[1]
+from polarsky.read.calibration_file import read_calibration
+from polarsky.synthetic.mosaic import bench_frames, mosaic_sample, scene_gradient
+from polarsky.tasks.stokes import stokes_from_mosaic_values
+from polarsky.write.calibration_file import write_calibration
 H, W = 48, 64
 LAY = parse_mosaic("90,45;135,0")
 ANGLES = np.arange(0.0, 180.0, 10.0)  # 18 reference-polarizer angles over 180 deg
@@ -82,13 +78,12 @@ def _scene_noise(raw, sigma, seed):
     return (raw + np.random.default_rng(seed).normal(0, sigma, raw.shape)).astype(np.float32)
 
 
-def test_calibrated_aolp_errors_fall_to_noise_level():
+def test_calibrated_aolp_errors_fall_to_noise_level(tmp_path):
     fit, (angle, er, dia, gain) = _fit(noise=0.0005)
-    cal = flat_calibration(fit)
-    cal.attrs["sensor_shape"] = [H, W]
-    truth_cal = Calibration(kind="flat", pixel={"pixel_gain": gain[None] / np.median(gain),
-                                                "pixel_diattenuation": dia[None], "pixel_angle_deg": angle[None]},
-                            attrs={"mosaic": LAY.text, "sensor_shape": [H, W]})
+    cal = write_calibration(tmp_path / "fitted.nc", flat_calibration(fit))
+    truth_cal = write_calibration(tmp_path / "truth.nc", Calibration(
+        kind="flat", pixel={"pixel_gain": gain[None] / np.median(gain), "pixel_diattenuation": dia[None],
+                            "pixel_angle_deg": angle[None]}, attrs={"mosaic": LAY.text, "sensor_shape": [H, W]}))
     scene = scene_gradient(H, W)
     raw = mosaic_sample(scene, LAY, angle_deg=angle, diattenuation=dia, gain=gain / np.median(gain), dtype=np.float64)
     noisy = _scene_noise(raw, 0.001, 7)
@@ -109,9 +104,9 @@ def test_calibrated_aolp_errors_fall_to_noise_level():
 
 
 @pytest.mark.parametrize("method", ["superpixel", "bilinear", "newton"])
-def test_calibrated_exact_without_noise(method):
+def test_calibrated_exact_without_noise(method, tmp_path):
     fit, (angle, er, dia, gain) = _fit(noise=0.0)
-    cal = flat_calibration(fit)
+    cal = write_calibration(tmp_path / "calibration.nc", flat_calibration(fit))
     s = np.stack([np.full((H, W), 0.5), np.full((H, W), 0.12), np.full((H, W), -0.2)])
     raw = mosaic_sample(s, LAY, angle_deg=angle, diattenuation=dia, gain=gain / np.median(gain), dtype=np.float64)
     ds = stokes_from_mosaic_values(raw, mosaic=LAY.text, demosaic=method, calibration=cal)
@@ -123,13 +118,15 @@ def test_calibrated_exact_without_noise(method):
     assert np.abs(ds.aolp.values - aolp_true).max() < 0.1
     plain = stokes_from_mosaic_values(raw, mosaic=LAY.text, demosaic=method)
     assert np.abs(plain.aolp.values - aolp_true).max() > 0.5
-    assert ds.attrs["calibration_per_pixel"] == 1
+    applied = json.loads(ds.attrs["calibration"])
+    assert applied["per_pixel"] is True and applied["kind"] == "flat"
 
 
-def test_defective_pixels_are_repaired():
+def test_defective_pixels_are_repaired(tmp_path):
     fit, (angle, er, dia, gain) = _fit(noise=0.0)
-    cal = flat_calibration(fit)
-    cal.pixel["pixel_defect"][0, 10, 10] = 1
+    flat = flat_calibration(fit)
+    flat.pixel["pixel_defect"][0, 10, 10] = 1
+    cal = write_calibration(tmp_path / "calibration.nc", flat)
     s = np.stack([np.full((H, W), 0.5), np.full((H, W), 0.1), np.full((H, W), 0.1)])
     raw = mosaic_sample(s, LAY, angle_deg=angle, diattenuation=dia, gain=gain / np.median(gain), dtype=np.float64)
     raw[10, 10] = 0.0  # the dead pixel
@@ -139,8 +136,8 @@ def test_defective_pixels_are_repaired():
 
 def test_calibration_for_another_sensor_or_layout(tmp_path):
     fit, _ = _fit(noise=0.0)
-    path = write_calibration(tmp_path / "cal.nc", flat_calibration(fit))
-    cal = read_calibration(path)
+    cal = write_calibration(tmp_path / "calibration.nc", flat_calibration(fit))
+    assert read_calibration(tmp_path).kind == "flat"  # the folder names the file too
     raw = np.full((H + 2, W), 0.3, np.float32)
     with pytest.raises(InputError, match=r"made for a 64x48 sensor but the frames are 64x50"):
         stokes_from_mosaic_values(raw, mosaic=LAY.text, calibration=cal)
@@ -164,79 +161,3 @@ def test_too_few_calibration_angles(angles, match):
 def test_angle_count_mismatch():
     with pytest.raises(InputError, match="3 calibration frames but 4 angles"):
         fit_flat([np.full((H, W), 0.3)] * 3, [0, 45, 90, 135], LAY)
-
-
-def _bench_files(tmp_path, n_angles=12):
-    angle, er, dia, gain = _sensor(3)
-    angles = np.arange(n_angles) * 180.0 / n_angles
-    frames = bench_frames((H, W), LAY, angles, angle_deg=angle, diattenuation=dia, gain=gain, level=0.6, noise=0.0005)
-    paths = [str(write_mosaic_png(tmp_path / f"bench_{a:05.1f}.png", f)) for a, f in zip(angles, frames)]
-    dark = str(write_mosaic_png(tmp_path / "dark.png", np.full((H, W), 0.002)))
-    return paths, angles, dark, angle
-
-
-def test_cli_calibrate_flat_in_process(tmp_path, capsys):
-    paths, angles, dark, angle = _bench_files(tmp_path)
-    out = tmp_path / "cal.nc"
-    rc = main(["calibrate", "flat", *paths, "--angles", ",".join(f"{a:g}" for a in angles), "--out", str(out),
-               "--mosaic", LAY.text, "--dark", dark, "--json"])
-    assert rc == 0
-    summary = json.loads(capsys.readouterr().out)
-    assert summary["n_frames"] == 12 and summary["n_dark_frames"] == 1 and summary["out"] == str(out)
-    cal = read_calibration(out)
-    assert cal.kind == "flat" and cal.attrs["mosaic"] == LAY.text and list(cal.attrs["sensor_shape"]) == [H, W]
-    assert cal.pixel["pixel_angle_deg"].shape == (1, H, W)
-    err = (cal.pixel["pixel_angle_deg"][0] - angle + 90) % 180 - 90
-    assert np.sqrt(np.mean(err**2)) < 0.1
-    assert "summary" in cal.attrs and "Powell" in cal.attrs["method"]
-
-
-def test_cli_calibrate_flat_subprocess_and_stokes_with_it(tmp_path):
-    paths, angles, dark, angle = _bench_files(tmp_path)
-    out = tmp_path / "cal.nc"
-    r = subprocess.run([sys.executable, "-m", "cli.main", "calibrate", "flat", *paths, "--angles", "0:180:15",
-                        "--out", str(out), "--mosaic", LAY.text], cwd=ROOT, capture_output=True, text=True)
-    assert r.returncode == 0, r.stderr
-    assert "dead pixels 0" in r.stdout and "wrote" in r.stdout
-    scene = write_mosaic_png(tmp_path / "scene.png", mosaic_sample(scene_gradient(H, W), LAY, angle_deg=angle))
-    ds = stokes_from_mosaic_files([scene], mosaic=LAY.text, calibration=out)
-    assert ds.attrs["calibration_per_pixel"] == 1
-    assert json.loads(ds.attrs["calibration"])["kind"] == "flat"
-
-
-def test_cli_too_few_angles_exit_2(tmp_path, capsys):
-    paths, angles, dark, angle = _bench_files(tmp_path, n_angles=2)
-    rc = main(["calibrate", "flat", *paths, "--angles", "0,90", "--out", str(tmp_path / "c.nc"), "--mosaic", LAY.text])
-    err = capsys.readouterr().err
-    assert rc == 2 and err.startswith("error: only 2 distinct") and err.count("\n") == 1
-    assert not (tmp_path / "c.nc").exists()
-
-
-def test_cli_calibration_for_another_layout_exit_2(tmp_path, capsys):
-    fit, _ = _fit(noise=0.0)
-    cal = write_calibration(tmp_path / "cal.nc", flat_calibration(fit))
-    frame = write_mosaic_png(tmp_path / "f.png", np.full((H, W), 0.3))
-    rc = main(["stokes", str(frame), "--mosaic", "45,90;0,135", "--calibration", str(cal), "--out", str(tmp_path / "o")])
-    err = capsys.readouterr().err
-    assert rc == 2 and err.count("\n") == 1
-    assert "was made for mosaic 90,45;135,0 but --mosaic is 45,90;0,135" in err
-    assert not (tmp_path / "o" / "stokes.nc").exists()
-
-
-@pytest.mark.parametrize("method", ["superpixel", "bilinear", "newton"])
-@pytest.mark.parametrize("colour", [None, "GRBG"])
-def test_row_blocks_equal_whole_frame(method, colour):
-    from polarsky.mosaic.pipeline import _decoded
-    from polarsky.mosaic.synthetic import scene_edges
-
-    fit, (angle, er, dia, gain) = _fit(noise=0.0)
-    cal = flat_calibration(fit, {})
-    cal.attrs["mosaic_colour"] = colour or ""
-    lay = parse_mosaic(LAY.text, colour)
-    scene = scene_edges(H, W) if colour is None else np.stack([scene_edges(H, W) * f for f in (0.5, 1, 0.8)])
-    raw = mosaic_sample(scene, lay, angle_deg=angle, diattenuation=dia, gain=gain, dtype=np.float32)
-    noisy = _scene_noise(raw, 0.002, 3)
-    whole, _, _ = _decoded(noisy, None, mosaic=lay, demosaic=method, calibration=cal, block_rows=1 << 20)
-    blocks, _, _ = _decoded(noisy, None, mosaic=lay, demosaic=method, calibration=cal, block_rows=16)
-    for name in whole:
-        np.testing.assert_allclose(blocks[name], whole[name], rtol=1e-5, atol=1e-6, equal_nan=True, err_msg=name)
