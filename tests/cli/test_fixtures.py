@@ -7,9 +7,9 @@ from pathlib import Path
 
 import pytest
 
-from cli.main import main
+from polarsky.cli.main import main
 
-FIX = Path(__file__).resolve().parents[1] / "fixtures"
+FIX = Path(__file__).resolve().parents[2] / "fixtures"
 
 
 def test_fixtures_regenerate_identically(tmp_path):
