@@ -1,4 +1,4 @@
-"""The bracket pipeline end to end on synthetic brackets with known truth."""
+"""``polarsky stokes`` as a task: brackets end to end on synthetic frames with known truth."""
 
 from __future__ import annotations
 
@@ -7,8 +7,10 @@ import json
 import numpy as np
 import pytest
 
-from polarsky.dataset import open_stokes
-from polarsky.pipeline import run_stokes, stokes_from_files
+from polarsky.errors import PolarskyWarning
+from polarsky.read.stokes_file import open_stokes
+from polarsky.tasks.stokes import run_stokes, stokes_from_files
+from polarsky.write.summary import SUMMARY_KEYS
 from tests.synth import render_frames, smooth_scene, write_pngs, write_tiffs
 
 
@@ -36,7 +38,7 @@ def test_extinction_and_offset_options(tmp_path):
     # filter ring reads 0/45/90/135 but its true zero is at +3 deg
     frames = render_frames(s, [3, 48, 93, 138], diattenuation=d)
     paths = write_tiffs(tmp_path, frames, [0, 45, 90, 135])
-    ds = stokes_from_files(paths, extinction=100, angle_offset_deg=3.0)
+    ds = stokes_from_files(paths, extinction=100, angle_offset=3.0)
     truth_p = np.hypot(s[1], s[2]) / s[0]
     np.testing.assert_allclose(ds["dolp"].values, truth_p, atol=3e-4)
 
@@ -69,8 +71,9 @@ def test_run_stokes_outputs_and_netcdf_round_trip(png_bracket, tmp_path):
     paths, s = png_bracket
     out = tmp_path / "out"
     summary = run_stokes(paths, out)
-    names = sorted(p.name for p in out.iterdir())
+    names = sorted(p.name for p in out.iterdir() if not p.name.startswith("."))
     assert names == ["aolp.png", "dolp.png", "polarization.png", "residual.png", "stokes.nc", "summary.json"]
+    assert summary["outputs"] == names
     on_disk = open_stokes(out / "stokes.nc")
     in_mem = stokes_from_files(paths)
     for v in ("S0", "S1", "S2", "dolp", "aolp", "sigma_aolp", "valid"):
@@ -78,9 +81,13 @@ def test_run_stokes_outputs_and_netcdf_round_trip(png_bracket, tmp_path):
         assert on_disk[v].attrs["units"] == in_mem[v].attrs["units"]
     assert list(on_disk["channel"].values) == ["L"]
     js = json.loads((out / "summary.json").read_text())
+    assert list(js) == list(SUMMARY_KEYS)
     assert js["frames"] == 4 and js["mean_dolp"]["L"] == pytest.approx(summary["mean_dolp"]["L"])
-    assert js["residual_relative_median"] < 1e-3
-    assert not any(p.name.startswith(".") for p in out.iterdir())
+    assert js["width_px"] == 64 and js["height_px"] == 48 and js["transfer"] == ["linear"] * 4
+    assert js["median_relative_residual"] < 1e-3 and js["calibration"] is None and js["mosaic_colour"] is None
+    # the only hidden file is the marker of a folder written by polarsky (no staging leftovers)
+    assert [p.name for p in out.iterdir() if p.name.startswith(".")] == [".polarsky-run.json"]
+    assert not [p for p in out.parent.iterdir() if p.name.startswith(".")]
 
 
 def test_uncertainty_from_residual_matches_scatter(tmp_path):
@@ -119,7 +126,50 @@ def test_residual_warns_when_frames_disagree(tmp_path):
     frames = render_frames(s, angles)
     frames[2] *= 1.3
     paths = write_tiffs(tmp_path, frames, angles)
-    with pytest.warns(Warning, match="frames disagree with the polarizer model"):
+    with pytest.warns(PolarskyWarning, match="analyzer intensities disagree with the filter model.*try --align"):
         summary = run_stokes(paths, tmp_path / "out")
-    assert summary["residual_relative_median"] > 0.03
+    assert summary["median_relative_residual"] > 0.03
+    assert any("disagree" in w for w in summary["warnings"])
     assert (tmp_path / "out" / "residual.png").is_file()
+
+
+def test_saturated_pixels_are_masked_and_counted(tmp_path):
+    s = smooth_scene(10, 10)
+    frames = render_frames(s, [0, 45, 90, 135])
+    frames[1, 0, 2:4, 2:5] = 1.0
+    paths = write_pngs(tmp_path, frames, [0, 45, 90, 135])
+    with pytest.warns(PolarskyWarning, match=r"6 pixel values saturated .* scene_045deg.png were masked"):
+        ds = stokes_from_files(paths)
+    assert not ds["valid"].values[0, 2:4, 2:5].any()
+    assert np.isnan(ds["dolp"].values[0, 2, 2])
+    assert ds["valid"].values.sum() == 100 - 6
+    assert json.loads(ds.attrs["saturated_px"]) == [0, 6, 0, 0]
+
+
+def test_failure_midway_leaves_no_partial_files(png_bracket, tmp_path, monkeypatch):
+    # An error while pictures are written must not leave stokes.nc or any staging folder behind.
+    from polarsky.write.pictures import maps
+
+    def boom(*a, **k):
+        raise RuntimeError("disk full")
+
+    paths, _ = png_bracket
+    monkeypatch.setattr(maps, "stokes_pictures", boom)
+    out = tmp_path / "out"
+    with pytest.raises(RuntimeError, match="disk full"):
+        run_stokes(paths, out)
+    assert not out.exists()
+    assert not [p for p in tmp_path.iterdir() if p.name.startswith(".")]
+
+
+def test_a_failed_run_keeps_the_earlier_result(png_bracket, tmp_path, monkeypatch):
+    from polarsky.write.pictures import maps
+
+    paths, _ = png_bracket
+    out = tmp_path / "out"
+    run_stokes(paths, out, pictures=False)
+    before = {p.name: p.read_bytes() for p in out.iterdir()}
+    monkeypatch.setattr(maps, "stokes_pictures", lambda *a, **k: (_ for _ in ()).throw(RuntimeError("disk full")))
+    with pytest.raises(RuntimeError):
+        run_stokes(paths, out)
+    assert {p.name: p.read_bytes() for p in out.iterdir()} == before
