@@ -1,15 +1,12 @@
-"""The console command: help, version, the demo as a user runs it."""
+"""The console command: help, version, packaging, the demo as a user runs it."""
 
 from __future__ import annotations
 
 import json
 import subprocess
 import sys
-from pathlib import Path
 
-from cli.main import main
-
-ROOT = Path(__file__).resolve().parents[1]
+from polarsky.cli.main import main
 
 
 def test_help_lists_commands(capsys):
@@ -29,11 +26,33 @@ def test_stokes_json_prints_one_object(png_bracket, tmp_path, capsys):
 
 
 def test_demo_subprocess(tmp_path):
-    r = subprocess.run([sys.executable, "-m", "cli.main", "demo", "--out", str(tmp_path / "d"), "--json"],
-                       cwd=ROOT, capture_output=True, text=True, timeout=300)
+    r = subprocess.run([sys.executable, "-m", "polarsky", "demo", "--out", str(tmp_path / "d"), "--json"],
+                       cwd=tmp_path, capture_output=True, text=True, timeout=300)
     assert r.returncode == 0, r.stderr
     rep = json.loads(r.stdout)
     assert abs((rep["best_angle_deg"] - rep["true_best_angle_deg"] + 90) % 180 - 90) < 1.0
-    for sub in ("stokes", "advice", "advice-protect"):
+    assert abs(rep["sky_yaw_deg"] - rep["true_sky_yaw_deg"]) < 1.0
+    for sub in rep["outputs"]:
+        assert (tmp_path / "d" / sub).exists(), sub
+    for sub in ("stokes", "advice", "advice-protect", "sky"):
         assert (tmp_path / "d" / sub).is_dir()
     assert (tmp_path / "d" / "stokes" / "polarization.png").stat().st_size > 10_000
+
+
+def test_python_m_polarsky_help_and_no_top_level_cli_module(tmp_path):
+    r = subprocess.run([sys.executable, "-m", "polarsky", "--help"], cwd=tmp_path, capture_output=True, text=True)
+    assert r.returncode == 0 and "stokes" in r.stdout and r.stderr == ""
+    probe = "import importlib.util; print(importlib.util.find_spec('cli') is None)"
+    r = subprocess.run([sys.executable, "-c", probe], cwd=tmp_path, capture_output=True, text=True)
+    assert r.stdout.strip() == "True", "an installed polarsky must not put a top-level 'cli' module on the path"
+
+
+def test_importing_and_running_polarsky_changes_no_global_state(png_bracket, tmp_path):
+    paths, _ = png_bracket
+    probe = (
+        "import sys; from PIL import Image; before = Image.MAX_IMAGE_PIXELS; import polarsky; "
+        "assert Image.MAX_IMAGE_PIXELS == before, 'import'; "
+        "polarsky.run_stokes(sys.argv[1:], 'out', pictures=False); "
+        "assert Image.MAX_IMAGE_PIXELS == before, 'run'; print('ok')")
+    r = subprocess.run([sys.executable, "-c", probe, *map(str, paths)], cwd=tmp_path, capture_output=True, text=True)
+    assert r.returncode == 0 and r.stdout.strip() == "ok", r.stderr

@@ -1,4 +1,5 @@
-"""Bad input: exit status 2, one line 'error: ...', no traceback, no partial output, inputs untouched."""
+"""``polarsky stokes`` (and ``advise``) on bad input: exit status 2, one line 'error: ...', no traceback,
+no partial output, inputs untouched."""
 
 from __future__ import annotations
 
@@ -10,10 +11,8 @@ from pathlib import Path
 import numpy as np
 import pytest
 
-from cli.main import main
+from polarsky.cli.main import main
 from tests.synth import render_frames, smooth_scene, write_pngs
-
-ROOT = Path(__file__).resolve().parents[1]
 
 
 def _digest(paths):
@@ -128,23 +127,18 @@ def test_bad_region_and_usage(good, tmp_path, capsys):
     _check(code, err, "--out", tmp_path / "none")
 
 
-def test_failure_midway_leaves_no_partial_files(good, tmp_path, monkeypatch):
-    # An error while pictures are written must not leave stokes.nc or any staging folder behind.
-    from polarsky import pipeline, render
-
-    def boom(*a, **k):
-        raise RuntimeError("disk full")
-
-    monkeypatch.setattr(render, "stokes_pictures", boom)
-    out = tmp_path / "out"
-    with pytest.raises(RuntimeError):
-        pipeline.run_stokes(good, out)
-    assert list(out.iterdir()) == []
-
-
 def test_subprocess_error_is_one_line(good, tmp_path):
-    r = subprocess.run([sys.executable, "-m", "cli.main", "stokes", str(good[0]), "--out", str(tmp_path / "o")],
-                       cwd=ROOT, capture_output=True, text=True)
+    r = subprocess.run([sys.executable, "-m", "polarsky", "stokes", str(good[0]), "--out", str(tmp_path / "o")],
+                       cwd=tmp_path, capture_output=True, text=True)
     assert r.returncode == 2
     assert r.stderr.strip().count("\n") == 0 and r.stderr.startswith("error: ")
     assert r.stdout == ""
+
+
+def test_out_folder_holding_other_files(good, tmp_path, capsys):
+    out = tmp_path / "mine"
+    out.mkdir()
+    (out / "notes.txt").write_text("keep")
+    code, err = _run(["stokes", *map(str, good), "--out", str(out)], capsys)
+    assert code == 2 and len(err) == 1 and "already holds files polarsky did not write" in err[0]
+    assert [p.name for p in out.iterdir()] == ["notes.txt"]
