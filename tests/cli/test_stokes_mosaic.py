@@ -3,16 +3,14 @@
 import json
 import subprocess
 import sys
-from pathlib import Path
 
 import numpy as np
 import pytest
 
-from cli.main import main
-from polarsky.dataset import open_stokes
-from polarsky.mosaic.synthetic import mosaic_sample, scene_uniform, write_mosaic_png
-
-ROOT = Path(__file__).resolve().parents[1]
+from polarsky.cli.main import main
+from polarsky.read.stokes_file import open_stokes
+from polarsky.synthetic.mosaic import mosaic_sample, scene_uniform, write_mosaic_png
+from polarsky.write.summary import SUMMARY_KEYS
 H, W = 48, 64
 LAY = "90,45;135,0"
 
@@ -41,10 +39,10 @@ def test_stokes_mosaic_in_process_json(tmp_path, frame, capsys):
 
 
 def test_stokes_mosaic_subprocess_text(tmp_path, frame):
-    r = subprocess.run([sys.executable, "-m", "cli.main", "stokes", frame, "--mosaic", LAY, "--demosaic", "superpixel",
-                        "--out", str(tmp_path / "o")], cwd=ROOT, capture_output=True, text=True)
+    r = subprocess.run([sys.executable, "-m", "polarsky", "stokes", frame, "--mosaic", LAY, "--demosaic", "superpixel",
+                        "--out", str(tmp_path / "o")], cwd=tmp_path, capture_output=True, text=True)
     assert r.returncode == 0, r.stderr
-    assert "mosaic layout" in r.stdout and "32x24" in r.stdout
+    assert "1 mosaic frame(s), analyzers at 90, 45, 135, 0 deg (mosaic cell), 32x24 px" in r.stdout
 
 
 @pytest.mark.parametrize("args, match", [
@@ -72,11 +70,16 @@ def test_frame_not_multiple_of_cell_cli(tmp_path, capsys):
     assert "62x48 pixels, not a multiple of the 4x4 colour mosaic" in capsys.readouterr().err
 
 
-def test_option_helpers(frame):
-    from cli.mosaic_options import mosaic_dataset_from_options
-
-    assert mosaic_dataset_from_options([frame], {"mosaic": None}) is None
-    ds = mosaic_dataset_from_options([frame], {"mosaic": LAY, "demosaic": "superpixel", "bit_depth": "16"})
-    assert ds.attrs["demosaic"] == "superpixel" and ds.sizes["x"] == W // 2
-    with pytest.raises(Exception, match="--bit-depth apply only to mosaic frames"):
-        mosaic_dataset_from_options([frame], {"mosaic": None, "bit_depth": "12"})
+def test_mosaic_and_bracket_summaries_share_one_schema(tmp_path, frame, png_bracket, capsys):
+    # the same keys in the same order, and the same type for every key both paths fill
+    assert main(["stokes", frame, "--mosaic", LAY, "--bit-depth", "12", "--out", str(tmp_path / "m"), "--json"]) == 0
+    mosaic = json.loads(capsys.readouterr().out)
+    paths, _ = png_bracket
+    assert main(["stokes", *map(str, paths), "--out", str(tmp_path / "b"), "--json"]) == 0
+    bracket = json.loads(capsys.readouterr().out)
+    assert list(mosaic) == list(bracket) == list(SUMMARY_KEYS)
+    for key in SUMMARY_KEYS:
+        if mosaic[key] is not None and bracket[key] is not None:
+            assert type(mosaic[key]) is type(bracket[key]), key
+    assert mosaic["transfer"] == ["linear"] and mosaic["mosaic_colour"] is None and mosaic["calibration"] is None
+    assert bracket["mosaic"] is None and mosaic["output_pixel_size_px"] == 1
