@@ -1,6 +1,6 @@
-"""Round trips on invented sky brackets rendered from the model with known orientation and noise.
+"""``polarsky sky`` as a task: round trips on invented sky brackets rendered from the model.
 
-The frames go through the project's bracket path (16-bit TIFF -> polarsky.pipeline) before
+The frames go through the project's bracket path (16-bit TIFF -> the Stokes estimate) before
 the sky comparison, as a user's frames would.
 """
 
@@ -12,30 +12,16 @@ import xarray as xr
 
 from polarsky.errors import InputError, PolarskyWarning
 from polarsky.geometry import make_lens
-from polarsky.pipeline import stokes_from_files
-from polarsky.sky.calibrate import run_sky_calibration, split_brackets
-from polarsky.sky.inputs import products_from_dataset
-from polarsky.sky.run import run_sky
+from polarsky.read.stokes_file import products_from_dataset
 from polarsky.sky.skymap import SkyGeometry
 from polarsky.sky.sun import parse_when, sun_position
-from polarsky.sky.synth import render_sky_bracket, write_tiff_bracket
-
-WHEN = "2024-06-21T17:30:00+02:00"
-LAT, LON = 47.0, 8.0
-SUN = sun_position(parse_when(WHEN), LAT, LON)
-ANGLES = (0, 45, 90, 135)
-PLACE = dict(when=WHEN, lat=LAT, lon=LON)
-
-
-def _geom(yaw=10.0, pitch=25.0, roll=4.0, lens=None, placement="front"):
-    lens = lens or make_lens("pinhole", 64, 48, hfov_deg=70)
-    return SkyGeometry(lens, yaw, pitch, roll, SUN["azimuth_deg"], SUN["elevation_deg"], placement)
-
-
-def _bracket(tmp_path, geom, name="b", **kw):
-    kw.setdefault("noise_sigma", 0.002)
-    frames = render_sky_bracket(geom, ANGLES, **kw)
-    return [str(p) for p in write_tiff_bracket(tmp_path / name, frames, ANGLES)]
+from polarsky.synthetic.sky import render_sky_bracket, write_tiff_bracket
+from polarsky.tasks.sky import run_sky
+from polarsky.tasks.stokes import stokes_from_files
+from tests.sky_scene import ANGLES, LAT, LON, PLACE, WHEN
+from tests.sky_scene import bracket as _bracket
+from tests.sky_scene import geom as _geom
+from tests.sky_scene import products as _products
 
 
 @pytest.fixture(scope="module")
@@ -44,8 +30,9 @@ def plain(tmp_path_factory):
     return _bracket(tmp, _geom())
 
 
-REQUIRED = ["sun_azimuth_deg", "sun_elevation_deg", "dolp_max", "dolp_max_sigma", "aolp_rms_deg", "dolp_rms",
-            "sky_pixels", "yaw_deg", "pitch_deg", "roll_deg", "polarizer", "dolp_max_bound"]
+REQUIRED = ["sun_azimuth_deg", "sun_elevation_deg", "dolp_max", "dolp_max_sigma", "rms_aolp_residual_deg",
+            "rms_dolp_residual", "mad_aolp_residual_deg", "median_aolp_residual_deg", "sky_pixels", "fit_samples",
+            "yaw_deg", "pitch_deg", "roll_deg", "polarizer", "dolp_max_bound", "model_title", "outputs"]
 
 
 def test_round_trip_known_orientation(plain, tmp_path):
@@ -55,7 +42,7 @@ def test_round_trip_known_orientation(plain, tmp_path):
     assert res["dolp_max"] == pytest.approx(0.75, abs=0.01)
     assert 0 < res["dolp_max_sigma"] < 0.01
     assert res["dolp_max_bound"] == pytest.approx(0.94571, abs=1e-5)  # Young (1980) rho = 0.0279
-    assert res["aolp_rms_deg"] < 1.5 and res["dolp_rms"] < 0.03
+    assert res["rms_aolp_residual_deg"] < 1.5 and res["rms_dolp_residual"] < 0.03
     assert res["sky_pixels"] > 0.5 * 64 * 48
     assert res["polarizer"] == "front" and res["time_source"] == "option"
     on_disk = json.loads((tmp_path / "out" / "sky.json").read_text())
@@ -72,14 +59,15 @@ def test_pictures_are_written(plain, tmp_path):
     res = run_sky(plain, tmp_path / "pic", hfov_deg=70, yaw_deg=10, pitch_deg=25, roll_deg=4, **PLACE)
     for name in ("sky_aolp_observed.png", "sky_aolp_model.png", "sky_dolp_observed.png", "sky_dolp_model.png",
                  "sky_aolp_residual.png", "sky_dolp_residual.png", "sky_mask.png"):
-        assert name in res["files"]
+        assert name in res["outputs"]
         assert (tmp_path / "pic" / name).stat().st_size > 1000
-    assert not [p for p in (tmp_path / "pic").iterdir() if p.name.startswith(".")]
+    assert [p.name for p in (tmp_path / "pic").iterdir() if p.name.startswith(".")] == [".polarsky-run.json"]
+    assert res["outputs"] == sorted(p.name for p in (tmp_path / "pic").iterdir() if not p.name.startswith("."))
 
 
 def test_wrong_orientation_shows_in_the_residuals(plain, tmp_path):
     res = run_sky(plain, tmp_path / "o", hfov_deg=70, yaw_deg=30, pitch_deg=25, roll_deg=4, pictures=False, **PLACE)
-    assert res["aolp_rms_deg"] > 5
+    assert res["rms_aolp_residual_deg"] > 5
 
 
 def test_solve_yaw(plain, tmp_path):
@@ -110,15 +98,6 @@ def test_solve_all_three_warns_about_the_sun_axis_symmetry(plain, tmp_path):
     assert res["yaw_sigma_deg"] is None
 
 
-def _products(geom, **kw):
-    from polarsky.stokes import analysis_matrix, dolp_aolp, fit_stokes
-
-    frames = render_sky_bracket(geom, ANGLES, **kw)
-    s = fit_stokes(frames, analysis_matrix(ANGLES))
-    d, a = dolp_aolp(s)
-    return {"S": s, "dolp": d, "aolp": a, "valid": np.isfinite(d), "channels": ["L"], "attrs": {}}
-
-
 def test_little_sky_structure_warns(tmp_path):
     import imageio.v3 as iio
 
@@ -128,7 +107,7 @@ def test_little_sky_structure_warns(tmp_path):
     iio.imwrite(tmp_path / "m.png", mask)
     with pytest.warns(PolarskyWarning, match="too little sky structure|only .* sky pixels"):
         run_sky([], tmp_path / "w", stokes=prods, hfov_deg=70, yaw_deg=15, pitch_deg=25, roll_deg=4, solve="yaw",
-                sky_mask_path=tmp_path / "m.png", pictures=False, **PLACE)
+                sky_mask=tmp_path / "m.png", pictures=False, **PLACE)
 
 
 def test_sky_mask_limits_the_fit(plain, tmp_path):
@@ -138,7 +117,7 @@ def test_sky_mask_limits_the_fit(plain, tmp_path):
     mask[:, :32] = 1
     iio.imwrite(tmp_path / "half.png", mask)
     res = run_sky(plain, tmp_path / "m", hfov_deg=70, yaw_deg=10, pitch_deg=25, roll_deg=4,
-                  sky_mask_path=tmp_path / "half.png", pictures=False, **PLACE)
+                  sky_mask=tmp_path / "half.png", pictures=False, **PLACE)
     assert res["sky_pixels"] <= 32 * 48
     assert res["mask_counts"]["excluded by --sky-mask"] > 0
 
@@ -147,8 +126,8 @@ def test_sky_mask_of_wrong_size(plain, tmp_path):
     import imageio.v3 as iio
 
     iio.imwrite(tmp_path / "small.png", np.ones((10, 10), np.uint8))
-    with pytest.raises(InputError, match="10x10 pixels but the frames are 64x48"):
-        run_sky(plain, tmp_path / "x", hfov_deg=70, sky_mask_path=tmp_path / "small.png", pictures=False, **PLACE)
+    with pytest.raises(InputError, match="--sky-mask mask .*small.png is 10x10 but the frames are 64x48"):
+        run_sky(plain, tmp_path / "x", hfov_deg=70, sky_mask=tmp_path / "small.png", pictures=False, **PLACE)
     assert not (tmp_path / "x" / "sky.json").exists()
 
 
@@ -180,64 +159,8 @@ def test_sensor_placement_round_trip_fisheye(tmp_path):
               pictures=False, **PLACE)
     right = run_sky([], tmp_path / "r", polarizer="sensor", **kw)
     wrong = run_sky([], tmp_path / "w", polarizer="front", **kw)
-    assert right["polarizer"] == "sensor" and right["aolp_mad_deg"] < 1.0
-    assert wrong["aolp_mad_deg"] > 2 * right["aolp_mad_deg"]
-
-
-def test_calibration_round_trip_through_the_bracket_path(tmp_path):
-    from polarsky.calibration import read_calibration
-
-    files = _bracket(tmp_path, _geom(), analyzer_offset_deg=3.0)
-    geo = dict(hfov_deg=70, yaw_deg=10, pitch_deg=25, roll_deg=4, **PLACE)
-    before = run_sky(files, tmp_path / "b", pictures=False, **geo)
-    assert before["aolp_bias_deg"] == pytest.approx(-3.0, abs=0.3)
-    res = run_sky_calibration(split_brackets(files, None), tmp_path / "cal.nc", **geo)
-    assert res["angle_offset_deg"][0] == pytest.approx(3.0, abs=0.1)
-    cal = read_calibration(tmp_path / "cal.nc")
-    assert cal.kind == "sky" and cal.angle_offset_deg.shape == (1,)
-    assert cal.diattenuation is None and "angle_offset_deg" in cal.uncertainty
-    after = run_sky(files, tmp_path / "a", calibration=str(tmp_path / "cal.nc"), pictures=False, **geo)
-    assert after["aolp_rms_deg"] < 1.5 < before["aolp_rms_deg"]
-
-
-def test_calibration_refuses_offset_roll_tie(tmp_path):
-    files = _bracket(tmp_path, _geom(), analyzer_offset_deg=3.0)
-    with pytest.raises(InputError, match="cannot be told apart .* no calibration file was written"):
-        run_sky_calibration([files], tmp_path / "cal.nc", hfov_deg=70, yaw_deg=10, pitch_deg=25, roll_deg=4,
-                            solve="roll", **PLACE)
-    assert not (tmp_path / "cal.nc").exists()
-
-
-def test_calibration_wide_field_separates_roll(tmp_path):
-    lens = make_lens("fisheye-equidistant", 64, 64, fov_deg=180)
-    files = _bracket(tmp_path, _geom(yaw=30, pitch=70, roll=6, lens=lens), analyzer_offset_deg=-2.0)
-    res = run_sky_calibration([files], tmp_path / "cal.nc", lens="fisheye-equidistant", fov_deg=180, yaw_deg=30,
-                              pitch_deg=70, roll_deg=0, solve="roll", **PLACE)
-    assert res["angle_offset_deg"][0] == pytest.approx(-2.0, abs=0.3)
-    assert res["poses"][0]["roll_deg"] == pytest.approx(6.0, abs=0.3)
-
-
-def test_calibration_several_brackets_and_diattenuation(tmp_path):
-    a = _bracket(tmp_path, _geom(yaw=10), name="a", analyzer_offset_deg=1.5, diattenuation=0.9)
-    b = _bracket(tmp_path, _geom(yaw=150, pitch=40, roll=0), name="b", analyzer_offset_deg=1.5, diattenuation=0.9)
-    res = run_sky_calibration(split_brackets(a + b, 4), tmp_path / "cal.nc", poses=[(10, 25, 4), (150, 40, 0)],
-                              reference_dolp_max=0.75, hfov_deg=70, **PLACE)
-    assert res["brackets"] == 2
-    assert res["angle_offset_deg"][0] == pytest.approx(1.5, abs=0.1)
-    assert res["diattenuation"][0] == pytest.approx(0.9, abs=0.02)
-
-
-def test_split_brackets_errors():
-    with pytest.raises(InputError, match="do not split into brackets of 4"):
-        split_brackets(["a", "b", "c", "d", "e"], 4)
-    with pytest.raises(InputError, match="too small"):
-        split_brackets(["a", "b"], 2)
-    assert split_brackets(["x.nc", "y.nc"], None) == [["x.nc"], ["y.nc"]]
-
-
-def test_pose_count_must_match(tmp_path):
-    with pytest.raises(InputError, match="2 --pose values for 1 bracket"):
-        run_sky_calibration([["a"]], tmp_path / "c.nc", poses=[(0, 0, 0), (1, 1, 1)], **PLACE)
+    assert right["polarizer"] == "sensor" and right["mad_aolp_residual_deg"] < 1.0
+    assert wrong["mad_aolp_residual_deg"] > 2 * right["mad_aolp_residual_deg"]
 
 
 def test_colour_bracket_per_channel_fit(tmp_path):
@@ -259,8 +182,8 @@ def test_manifest_only(plain, tmp_path):
 def test_neutral_point_model_fits_a_sky_with_an_arago_point(tmp_path):
     # an invented evening sky rendered with the neutral-point model (Berry et al. 2004): the
     # camera looks at the antisolar side, where the Arago point sits ~20 deg above the antisun
-    from polarsky.sky.synth import render_sky_stokes
-    from polarsky.stokes import dolp_aolp
+    from polarsky.core.stokes import dolp_aolp
+    from polarsky.synthetic.sky import render_sky_stokes
 
     when = "2024-06-21T20:00:00+02:00"
     sun = sun_position(parse_when(when), LAT, LON)
@@ -275,17 +198,7 @@ def test_neutral_point_model_fits_a_sky_with_an_arago_point(tmp_path):
     bdl = run_sky([], tmp_path / "n", model="neutral-points", **kw)
     ray = run_sky([], tmp_path / "r", model="rayleigh", **kw)
     assert bdl["model"] == "neutral-points" and bdl["neutral_point_deg"] == pytest.approx(20.0)
-    assert bdl["aolp_rms_deg"] < 0.1 < ray["aolp_rms_deg"]
-
-
-def test_calibration_is_absolute_when_the_estimate_used_an_offset(tmp_path):
-    # frames made with a true offset of 3 deg, estimated with --angle-offset 1: the file must
-    # still hold 3 (relative to the nominal angles), not the 2 that remain
-    files = _bracket(tmp_path, _geom(), analyzer_offset_deg=3.0)
-    res = run_sky_calibration([files], tmp_path / "cal.nc", angle_offset_deg=1.0, hfov_deg=70, yaw_deg=10,
-                              pitch_deg=25, roll_deg=4, **PLACE)
-    assert res["offset_already_applied_deg"] == [1.0]
-    assert res["angle_offset_deg"][0] == pytest.approx(3.0, abs=0.1)
+    assert bdl["rms_aolp_residual_deg"] < 0.1 < ray["rms_aolp_residual_deg"]
 
 
 def test_time_and_place_from_exif_of_jpeg_frames(tmp_path):
@@ -312,11 +225,11 @@ def test_time_and_place_from_exif_of_jpeg_frames(tmp_path):
     assert res["altitude_m"] == pytest.approx(400.0)
     ref = sun_position(parse_when(WHEN), LAT, LON, altitude_m=400.0)
     assert res["sun_azimuth_deg"] == pytest.approx(ref["azimuth_deg"], abs=1e-9)
-    assert res["aolp_rms_deg"] < 3.0
+    assert res["rms_aolp_residual_deg"] < 3.0
 
 
-def test_unknown_option_is_a_programming_error(plain, tmp_path):
-    with pytest.raises(TypeError, match="unknown option"):
+def test_unknown_option_is_named(plain, tmp_path):
+    with pytest.raises(InputError, match="unknown setting 'hfov'"):
         run_sky(plain, tmp_path / "u", hfov=70, **PLACE)
 
 
