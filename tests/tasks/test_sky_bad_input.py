@@ -4,17 +4,19 @@ import numpy as np
 import pytest
 import xarray as xr
 
-from cli.sky import parse_floats
 from polarsky.errors import InputError
 from polarsky.geometry import make_lens
-from polarsky.sky.calibrate import run_sky_calibration, split_brackets
-from polarsky.sky.inputs import load_stokes, products_from_dataset
+from polarsky.options.settings import Settings
+from polarsky.read.stokes_file import products_from_dataset, read_stokes
 from polarsky.sky.models import get_model
 from polarsky.sky.orient import fit_orientation, sample_bracket
-from polarsky.sky.run import run_sky
 from polarsky.sky.skymap import SkyGeometry
 from polarsky.sky.sun import parse_when, resolve_time_place, sun_position
-from tests.test_sky_fit import PLACE, _geom, _products
+from polarsky.tasks.calibrate_sky import fit_sky_calibration, split_brackets
+from polarsky.tasks.sky import run_sky, stokes_products
+from tests.sky_scene import PLACE
+from tests.sky_scene import geom as _geom
+from tests.sky_scene import products as _products
 
 WHEN = parse_when("2024-06-21T12:00:00Z")
 
@@ -36,11 +38,6 @@ def test_fisheye_fov_too_large():
         make_lens("fisheye-equidistant", 64, 48, fov_deg=400)
 
 
-def test_parse_floats_not_numbers():
-    with pytest.raises(InputError, match="--distortion 'a,b' must be numbers"):
-        parse_floats("a,b", "--distortion")
-
-
 @pytest.fixture(scope="module")
 def prods():
     return _products(_geom(), noise_sigma=0.002)
@@ -48,10 +45,10 @@ def prods():
 
 @pytest.mark.parametrize("kw,match", [
     (dict(sun_mask_deg=95), "--sun-mask-deg 95"),
-    (dict(polarizer="behind"), "--polarizer 'behind'"),
-    (dict(yaw_deg=float("nan")), "--yaw-deg nan"),
+    (dict(polarizer="behind"), "--polarizer 'behind' is not one of front, sensor"),
+    (dict(yaw_deg=float("nan")), "--yaw-deg must be a finite number, got nan"),
     (dict(lens="barrel"), "--lens 'barrel'"),
-    (dict(model="mie"), "sky model 'mie'"),
+    (dict(model="mie"), "--model 'mie' is not a known sky model"),
 ])
 def test_run_sky_bad_options(prods, tmp_path, kw, match):
     opts = dict(hfov_deg=70, pictures=False, **PLACE)
@@ -63,19 +60,22 @@ def test_run_sky_bad_options(prods, tmp_path, kw, match):
 def test_unreadable_sky_mask(prods, tmp_path):
     bad = tmp_path / "m.png"
     bad.write_bytes(b"not a png")
-    with pytest.raises(InputError, match="cannot be read as an image"):
-        run_sky([], tmp_path / "o", stokes=prods, hfov_deg=70, sky_mask_path=bad, pictures=False, **PLACE)
+    with pytest.raises(InputError, match="--sky-mask mask .*m.png cannot be decoded: .*; save the image again"):
+        run_sky([], tmp_path / "o", stokes=prods, hfov_deg=70, sky_mask=bad, pictures=False, **PLACE)
 
 
-def test_load_stokes_errors(tmp_path):
-    with pytest.raises(InputError, match="give the frames of a bracket"):
-        load_stokes([])
+def test_stokes_input_errors(tmp_path):
+    with pytest.raises(InputError, match="no frames given"):
+        stokes_products([], Settings())
     with pytest.raises(InputError, match="does not exist"):
-        load_stokes([tmp_path / "nope.tif"])
+        stokes_products([tmp_path / "nope_000deg.tif", tmp_path / "nope_060deg.tif", tmp_path / "nope_120deg.tif"],
+                        Settings())
     junk = tmp_path / "junk.nc"
     junk.write_bytes(b"\x00" * 64)
-    with pytest.raises(InputError, match="cannot be read as a Stokes dataset"):
-        load_stokes([junk])
+    with pytest.raises(InputError, match="cannot be read as a Stokes result"):
+        stokes_products([junk], Settings())
+    with pytest.raises(InputError, match="does not exist"):
+        read_stokes(tmp_path / "none.nc")
 
 
 def test_dataset_without_stokes():
@@ -98,16 +98,14 @@ def test_orientation_fit_needs_sky_and_angles(prods):
 def test_calibration_bad_inputs(prods, tmp_path):
     with pytest.raises(InputError, match="--bracket-size does not apply"):
         split_brackets(["a.nc", "b.nc"], 4)
-    with pytest.raises(InputError, match="--reference-dolp-max 1.5"):
-        run_sky_calibration(None, tmp_path / "c.nc", stokes=[prods], reference_dolp_max=1.5, hfov_deg=70, **PLACE)
+    with pytest.raises(InputError, match="--reference-dolp-max must lie in \\(0, 1\\], got 1.5"):
+        Settings.from_options(dict(reference_dolp_max=1.5, hfov_deg=70, **PLACE))
     rgb = dict(prods, channels=["R"])
+    settings = Settings.from_options(dict(hfov_deg=70, yaw_deg=10, pitch_deg=25, roll_deg=4, **PLACE))
     with pytest.raises(InputError, match="bracket 2 has channels R but bracket 1 has L"):
-        run_sky_calibration(None, tmp_path / "c.nc", stokes=[prods, rgb], hfov_deg=70, yaw_deg=10, pitch_deg=25,
-                            roll_deg=4, **PLACE)
+        fit_sky_calibration(None, settings, stokes=[prods, rgb])
     with pytest.raises(InputError, match="clear-sky pixels; check its orientation"):
-        run_sky_calibration(None, tmp_path / "c.nc", stokes=[prods], hfov_deg=70, yaw_deg=10, pitch_deg=-60,
-                            **PLACE)
-    assert not (tmp_path / "c.nc").exists()
+        fit_sky_calibration(None, settings.replace({"pitch_deg": -60}), stokes=[prods])
 
 
 def test_geometry_unknown_placement():
