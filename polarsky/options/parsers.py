@@ -18,6 +18,20 @@ LENS_CHOICES = LENS_MODELS.names()
 SKY_MODEL_CHOICES = SKY_MODELS.names()
 
 
+def _in_file(what, parse):
+    """``parse()``, with a settings file's ``what`` ("file [table] key") put before its message.
+
+    Parsers that defer to another module's checks (regions, the mosaic cell, registries) get
+    messages naming the option; values from a batch file must name the file, table and key.
+    """
+    try:
+        return parse()
+    except InputError as exc:
+        if what.startswith("--"):
+            raise
+        raise InputError(f"{what}: {exc}") from None
+
+
 def _num(value, what, *, allow_exponent=True):
     return parse_number(value, what, allow_exponent=allow_exponent)
 
@@ -156,7 +170,7 @@ def bit_depth(value, what, base=None):
 def mosaic_cell(value, what, base=None):
     from ..mosaic.layout import parse_mosaic
 
-    return parse_mosaic(str(value)).text
+    return _in_file(what, lambda: parse_mosaic(str(value)).text)
 
 
 def bayer(value, what, base=None):
@@ -167,15 +181,15 @@ def bayer(value, what, base=None):
 
 
 def demosaic(value, what, base=None):
-    return DEMOSAIC_METHODS.key(value)
+    return _in_file(what, lambda: DEMOSAIC_METHODS.key(value))
 
 
 def lens(value, what, base=None):
-    return LENS_MODELS.key(value)
+    return _in_file(what, lambda: LENS_MODELS.key(value))
 
 
 def sky_model(value, what, base=None):
-    return SKY_MODELS.key(value)
+    return _in_file(what, lambda: SKY_MODELS.key(value))
 
 
 def solve(value, what, base=None):
@@ -204,7 +218,7 @@ def region(option):
     def parse(value, what, base=None):
         from ..read.masks import parse_region
 
-        return parse_region(value, option=option, base=base)
+        return _in_file(what, lambda: parse_region(value, option=option, base=base))
     return parse
 
 
