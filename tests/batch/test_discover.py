@@ -10,7 +10,7 @@ import pytest
 import tifffile
 
 from polarsky.batch.discover import discover_brackets, safe_name
-from polarsky.batch.synthetic import write_bracket
+from polarsky.synthetic.tree import write_bracket
 from polarsky.errors import InputError
 
 
@@ -53,16 +53,28 @@ def test_manifest_with_missing_frame_is_a_problem(tmp_path):
     paths = write_bracket(tmp_path / "m", "x", manifest=True)
     paths[2].unlink()
     (b,) = discover_brackets(tmp_path)
-    assert b.problem is not None and "missing frame" in b.problem and paths[2].name in b.problem
+    assert b.problem is not None and f"names {paths[2].name!r}, which does not exist" in b.problem
 
 
-def test_duplicate_angle_and_too_few_frames_are_problems(tmp_path):
+def test_repeated_angle_is_read_as_the_single_bracket_reader_reads_it_and_too_few_frames_fail(tmp_path):
+    from polarsky.read.bracket import bracket_files
+
     write_bracket(tmp_path, "a", angles_deg=(0, 45, 90))
     tifffile.imwrite(tmp_path / "a_45deg.tif", np.ones((4, 4), np.uint16))  # 45 again (045 and 45)
     write_bracket(tmp_path, "b", angles_deg=(0, 90))
     found = {b.name.split("__")[-1]: b for b in discover_brackets(tmp_path)}
-    assert "same angle" in found["a"].problem
+    # the same files give the same angles as 'polarsky stokes' reads from them (3 distinct: usable)
+    assert found["a"].problem is None and found["a"].angles_deg == (0.0, 45.0, 45.0, 90.0)
+    files, angles, _, source = bracket_files(found["a"].frames)
+    assert tuple(angles) == found["a"].angles_deg and source == "file names"
     assert "at least 3" in found["b"].problem
+
+
+def test_signed_angle_tokens_read_as_every_command_reads_them(tmp_path):
+    for a in ("-45", "0", "45", "90"):
+        tifffile.imwrite(tmp_path / f"pier_{a}deg.png".replace(".png", ".tif"), np.ones((4, 4), np.uint16))
+    (b,) = discover_brackets(tmp_path)
+    assert b.problem is None and b.angles_deg == (-45.0, 0.0, 45.0, 90.0)
 
 
 def test_time_rule_splits_on_gap_and_uses_configured_angles(tmp_path):
@@ -78,7 +90,7 @@ def test_time_rule_splits_on_gap_and_uses_configured_angles(tmp_path):
     assert "gap > 10 s" in found[0].reason
     # without angles: found, but failing with a reason that says how to fix it
     no_angles = discover_brackets(tmp_path, time_gap_s=10)
-    assert all("angles_deg" in b.problem for b in no_angles)
+    assert all("[read] angles" in b.problem and "--angles" in b.problem for b in no_angles)
 
 
 def test_time_rule_splits_a_run_of_whole_brackets(tmp_path):
