@@ -19,17 +19,24 @@ import numpy as np
 import pytest
 
 from polarsky.batch import runner, state
-from polarsky.batch.config import merge_settings
 from polarsky.batch.discover import Bracket
-from polarsky.batch.runner import process_bracket, run_batch
-from polarsky.batch.synthetic import write_bracket
+from polarsky.batch.runner import run_batch
+from polarsky.batch.task import SUMMARY_COLUMNS, process_bracket
 from polarsky.errors import InputError
+from polarsky.options.settings import Settings
+from polarsky.synthetic.tree import write_bracket
+from polarsky.write.stage import FolderLock
 
 
 def _warm():
     import polarsky.batch.report  # noqa: F401  (imports the heavy modules once per worker)
-    runner.step_functions()
+    import polarsky.tasks.advise  # noqa: F401
+    import polarsky.tasks.stokes  # noqa: F401
     return os.getpid()
+
+
+def _settings(**options):
+    return Settings.from_options(options)
 
 
 @pytest.fixture(scope="module")
@@ -66,7 +73,7 @@ def _snapshot(root: Path) -> dict:
     return out
 
 
-FAST = {"stokes": {"pictures": False}}  # the PNG maps are slow; most tests do not need them
+FAST = {"pictures": False}  # the PNG maps are slow; most tests do not need them
 
 
 def _rows_csv(path):
@@ -79,7 +86,7 @@ def first_run(client, tmp_path_factory):
     base = tmp_path_factory.mktemp("batch")
     root = _tree(base / "in")
     before = _snapshot(root)
-    result = run_batch(root, base / "out", settings=merge_settings(FAST), client=client)
+    result = run_batch(root, base / "out", settings=_settings(**FAST), client=client)
     return base, root, before, result
 
 
@@ -101,12 +108,12 @@ def test_batch_through_a_real_cluster(first_run):
     assert not (out / state.TMP_DIR).exists() and not (out / runner.SCRATCH_DIR).exists()
     rows = _rows_csv(out / "summary.csv")
     assert [r["name"] for r in rows] == [r["name"] for r in result["rows"]]
-    assert list(rows[0]) == runner.SUMMARY_COLUMNS
+    assert list(rows[0]) == SUMMARY_COLUMNS
     good = [r for r in rows if r["status"] == "done"]
     # The invented scene has DoLP 0.6 (0.3 + 0.7 y/(H-1)), i.e. a mean of 0.39 (our own render).
     assert all(abs(float(r["mean_dolp"]) - 0.39) < 0.01 for r in good)
     assert all(float(r["time_s"]) > 0 for r in good)
-    assert [r["angles_deg"] for r in good][0] == "0;45;90;135"
+    assert [r["analyzer_angles_deg"] for r in good][0] == "0,45,90,135"  # the --angles form
     html = (out / "report.html").read_text()
     assert all(f'data-name="{n}"' in html for n in status)
 
@@ -114,7 +121,7 @@ def test_batch_through_a_real_cluster(first_run):
 def test_failures_carry_the_reason(first_run):
     rows = {r["name"]: r for r in first_run[3]["rows"]}
     assert "corrupt_045deg.tif" in rows["day2__corrupt"]["error"]
-    assert "missing frame" in rows["day3__lost"]["error"] and "l_3.tif" in rows["day3__lost"]["error"]
+    assert "names 'l_3.tif', which does not exist" in rows["day3__lost"]["error"]
 
 
 def test_inputs_are_never_modified(first_run):
@@ -127,9 +134,10 @@ def test_results_equal_direct_stokes_call(first_run, tmp_path):
     import xarray as xr
 
     base, root, _, _ = first_run
-    run_stokes = runner.step_functions()[0]
+    from polarsky.tasks.stokes import run_stokes
+
     frames = sorted((root / "day1").glob("pier0_*deg.tif"))
-    run_stokes([str(f) for f in frames], tmp_path / "direct", angles_deg=[0, 45, 90, 135], pictures=False)
+    run_stokes([str(f) for f in frames], tmp_path / "direct", angles="0,45,90,135", pictures=False)
     with xr.open_dataset(tmp_path / "direct" / "stokes.nc") as a, \
             xr.open_dataset(base / "out" / "day1__pier0" / "stokes.nc") as b:
         for v in ("S0", "S1", "S2", "dolp", "aolp"):
@@ -143,7 +151,7 @@ def test_advice_reaches_summary_and_frame_thumbnail(client, tmp_path):
     write_bracket(root, "lake", height=48, width=64, seed=3)
     out = tmp_path / "out"
     # (the DoLP/AoLP thumbnails of the PNG maps are checked in test_report_browser.py)
-    settings = merge_settings({"advise": {"region": [8, 8, 40, 30]}, "stokes": {"pictures": False}})
+    settings = _settings(region=[8, 8, 40, 30], pictures=False)
     result = run_batch(root, out, settings=settings, client=client)
     (row,) = result["rows"]
     assert row["status"] == "done", row["error"]
@@ -153,7 +161,7 @@ def test_advice_reaches_summary_and_frame_thumbnail(client, tmp_path):
     assert row["best_angle_deg"] == pytest.approx(advice["best_angle_deg"], abs=1e-6)
     assert row["reduction_stops"] == pytest.approx(advice["reduction_stops"], abs=1e-6)
     with Image.open(folder / "thumb_frame.png") as im:
-        assert max(im.size) <= settings["report"]["thumbnail_px"]
+        assert max(im.size) <= settings.report.thumbnail_px
     csv_row = _rows_csv(out / "summary.csv")[0]
     assert float(csv_row["best_angle_deg"]) == pytest.approx(advice["best_angle_deg"], abs=1e-5)
 
@@ -161,7 +169,7 @@ def test_advice_reaches_summary_and_frame_thumbnail(client, tmp_path):
 def test_rerun_skips_unchanged_and_redoes_changed(first_run, client):
     base, root, before, result = first_run
     out = base / "out"
-    again = run_batch(root, out, settings=merge_settings(FAST), client=client)
+    again = run_batch(root, out, settings=_settings(**FAST), client=client)
     st = {r["name"]: r["status"] for r in again["rows"]}
     assert st["day1__pier0"] == st["day2__tower"] == "skipped"
     assert st["day2__corrupt"] == "failed"  # failures are always retried
@@ -171,7 +179,7 @@ def test_rerun_skips_unchanged_and_redoes_changed(first_run, client):
     # change one input: only that bracket is redone
     write_bracket(root / "day1", "pier1", seed=9)
     marker0 = json.loads((out / "day1__pier0" / state.MARKER).read_text())
-    third = run_batch(root, out, settings=merge_settings(FAST), client=client)
+    third = run_batch(root, out, settings=_settings(**FAST), client=client)
     st = {r["name"]: r["status"] for r in third["rows"]}
     assert st["day1__pier1"] == "done" and st["day1__pier0"] == st["day1__pier2"] == "skipped"
     assert json.loads((out / "day1__pier0" / state.MARKER).read_text())["run_id"] == marker0["run_id"]
@@ -179,8 +187,7 @@ def test_rerun_skips_unchanged_and_redoes_changed(first_run, client):
     nc = out / "day1__pier2" / "stokes.nc"
     nc.write_bytes(nc.read_bytes()[:100])
     # a changed setting redoes everything
-    changed = run_batch(root, out, settings=merge_settings(FAST, overrides={"stokes.angle_offset_deg": 2.0}),
-                        client=client)
+    changed = run_batch(root, out, settings=_settings(angle_offset=2.0, **FAST), client=client)
     assert {r["status"] for r in changed["rows"]} == {"done", "failed"}
     assert _snapshot(root) != before  # (we rewrote pier1 ourselves above)
 
@@ -191,7 +198,7 @@ def test_worker_killed_mid_task_the_batch_still_completes(client, tmp_path):
         write_bracket(root, f"scene{i}", height=240, width=320, seed=i)
     out = tmp_path / "out"
     box: dict = {}
-    t = threading.Thread(target=lambda: box.update(result=run_batch(root, out, settings=merge_settings(FAST),
+    t = threading.Thread(target=lambda: box.update(result=run_batch(root, out, settings=_settings(**FAST),
                                                                     client=client)))
     t.start()
     killed = None
@@ -238,18 +245,11 @@ def test_unreachable_scheduler_is_an_input_error(tmp_path):
             pass
 
 
-def test_sky_configured_but_unavailable_is_an_input_error(tmp_path, monkeypatch):
-    real = runner.step_functions
-    monkeypatch.setattr(runner, "step_functions", lambda: real()[:2] + (None,))
-    with pytest.raises(InputError, match="sky comparison is configured.*not available"):
-        run_batch(tmp_path, tmp_path / "out", settings=merge_settings({"sky": {"lat_deg": 45.0}}))
-
-
 def test_a_name_that_would_escape_is_refused(tmp_path):
     frames = write_bracket(tmp_path / "in", "a")
     b = Bracket(name="../escape", label="x", frames=tuple(frames), angles_deg=(0, 45, 90, 135), manifest=None,
                 rule="name", reason="test")
-    row = process_bracket({"bracket": b, "out_dir": str(tmp_path / "out"), "settings": merge_settings(),
+    row = process_bracket({"bracket": b, "out_dir": str(tmp_path / "out"), "settings": Settings(), "sky": False,
                            "run_id": "t"})
     assert row["status"] == "failed" and "unsafe bracket name" in row["error"]
     assert not (tmp_path / "escape").exists()
@@ -260,7 +260,7 @@ def test_odd_folder_names_stay_inside_the_output(client, tmp_path):
     write_bracket(root / "odd..name", "x..y", seed=1)
     write_bracket(root / "sp ace" / "-dash", "z", seed=2)
     out = tmp_path / "out"
-    result = run_batch(root, out, settings=merge_settings(FAST), client=client)
+    result = run_batch(root, out, settings=_settings(**FAST), client=client)
     assert [r["status"] for r in result["rows"]] == ["done", "done"]
     made = [p for p in tmp_path.rglob("*") if not p.is_relative_to(root)]
     assert made and all(p.resolve().is_relative_to(out.resolve()) for p in made)
@@ -268,16 +268,18 @@ def test_odd_folder_names_stay_inside_the_output(client, tmp_path):
 
 
 def test_concurrent_batch_on_same_output_is_refused(tmp_path):
+    root = tmp_path / "in"
+    write_bracket(root, "a")
     out = tmp_path / "out"
     out.mkdir()
-    with runner._lock(out):
-        with pytest.raises(InputError, match="another batch is writing"):
-            with runner._lock(out):
-                pass
+    with FolderLock(out):
+        with pytest.raises(InputError, match="another polarsky run is writing to"):
+            run_batch(root, out, settings=_settings(**FAST))
+    assert list(out.iterdir()) == []
 
 
 def test_cli_json_on_an_existing_scheduler_exit_status(client, tmp_path, capsys):
-    from cli.main import main
+    from polarsky.cli.main import main
 
     root = tmp_path / "in"
     write_bracket(root, "ok", seed=1)
@@ -299,7 +301,7 @@ def test_progress_bar_counts_done_and_failed(client, tmp_path, capsys):
     root = tmp_path / "in"
     write_bracket(root, "ok", seed=1)
     write_bracket(root, "few", angles_deg=(0, 90), seed=2)
-    run_batch(root, tmp_path / "out", settings=merge_settings(FAST), client=client, progress=True)
+    run_batch(root, tmp_path / "out", settings=_settings(**FAST), client=client, progress=True)
     err = capsys.readouterr().err
     assert "2/2" in err and "failed=1" in err and "done=1" in err and "bracket/s" in err
 
