@@ -1,6 +1,6 @@
 """Nothing lost: SIGKILL the whole batch part-way, run it again, compare with a clean run.
 
-The batch runs as a subprocess (``python -m cli.main batch ...``) with its own local
+The batch runs as a subprocess (``python -m polarsky batch ...``) with its own local
 cluster; the test watches the output folder the whole time.
 """
 
@@ -18,11 +18,10 @@ from pathlib import Path
 import h5py
 import numpy as np
 
-from cli.main import main
 from polarsky.batch import state
-from polarsky.batch.synthetic import write_bracket
+from polarsky.cli.main import main
+from polarsky.synthetic.tree import write_bracket
 
-REPO = Path(__file__).resolve().parents[1]
 N_BRACKETS = 10
 
 
@@ -62,13 +61,13 @@ def test_sigkill_part_way_then_rerun_matches_a_clean_run(tmp_path):
     for i in range(N_BRACKETS):
         write_bracket(root / ("north" if i % 2 else "south"), f"frame{i:02d}", height=64, width=96, seed=i)
     cfg = tmp_path / "batch.toml"
-    cfg.write_text("[stokes]\npictures = false\n[cluster]\nworkers = 2\n")
+    cfg.write_text("[output]\npictures = false\n[cluster]\nworkers = 2\n")
     out = tmp_path / "out"
-    cmd = [sys.executable, "-m", "cli.main", "batch", str(root), "--out", str(out), "--config", str(cfg)]
+    cmd = [sys.executable, "-m", "polarsky", "batch", str(root), "--out", str(out), "--config", str(cfg)]
 
     err_log = tmp_path / "killed-run.stderr"
     with open(err_log, "wb") as err:
-        proc = subprocess.Popen(cmd, cwd=REPO, stdout=subprocess.DEVNULL, stderr=err, start_new_session=True)
+        proc = subprocess.Popen(cmd, cwd=tmp_path, stdout=subprocess.DEVNULL, stderr=err, start_new_session=True)
     problems: list = []
     done_before: dict = {}
     deadline = time.monotonic() + 90
@@ -86,7 +85,7 @@ def test_sigkill_part_way_then_rerun_matches_a_clean_run(tmp_path):
     assert not problems, problems
     assert 0 < len(done_before) < N_BRACKETS, "the kill should land part-way through the batch"
 
-    rerun = subprocess.run(cmd + ["--json"], cwd=REPO, capture_output=True, text=True, timeout=180)
+    rerun = subprocess.run(cmd + ["--json"], cwd=tmp_path, capture_output=True, text=True, timeout=180)
     assert rerun.returncode == 0, rerun.stderr
     assert rerun.stderr == ""  # --json and no terminal: no progress bar, nothing else
     result = json.loads(rerun.stdout)
