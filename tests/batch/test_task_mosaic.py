@@ -1,7 +1,6 @@
-"""Polarization-mosaic frames in a batch (runs only where mosaic support is installed).
+"""Polarization-mosaic frames in a batch: each raw frame is its own bracket.
 
-Each raw frame is its own bracket; the per-bracket task runs in-process here (the cluster
-path is covered by test_batch_run.py).
+The per-bracket task runs in-process here (the cluster path is covered by test_runner.py).
 """
 
 from __future__ import annotations
@@ -12,18 +11,17 @@ import numpy as np
 import pytest
 
 from polarsky.batch import runner
-from polarsky.batch.config import merge_settings
+from polarsky.batch.task import process_bracket
 from polarsky.errors import InputError
-
-if runner.mosaic_function() is None:
-    pytest.skip("polarsky.mosaic is not part of this installation", allow_module_level=True)
+from polarsky.options.settings import Settings
+from polarsky.options.syntax import format_angle_list
 
 LAY = "90,45;135,0"
 
 
 @pytest.fixture(scope="module")
 def mosaic_root(tmp_path_factory):
-    from polarsky.mosaic.synthetic import mosaic_sample, scene_uniform, write_mosaic_png
+    from polarsky.synthetic.mosaic import mosaic_sample, scene_uniform, write_mosaic_png
 
     root = tmp_path_factory.mktemp("mosaic") / "in"
     root.mkdir()
@@ -35,31 +33,30 @@ def mosaic_root(tmp_path_factory):
 
 
 def test_every_mosaic_frame_is_a_bracket(mosaic_root, tmp_path):
-    settings = merge_settings({"mosaic": {"cell": LAY, "demosaic": "superpixel", "bit_depth": 12},
-                               "stokes": {"pictures": False}})
-    runner.check_steps(settings)
+    settings = Settings.from_options({"mosaic": LAY, "demosaic": "superpixel", "bit_depth": 12, "pictures": False})
+    runner.check_batch_settings(settings, sky=False)
     brackets = runner.list_brackets(mosaic_root, settings=settings)
     assert [(b.rule, len(b.frames)) for b in brackets] == [("mosaic", 1)] * 3
     out = tmp_path / "out"
     out.mkdir()
-    rows = [runner.process_bracket({"bracket": b, "out_dir": str(out), "settings": settings, "run_id": "t"})
+    rows = [process_bracket({"bracket": b, "out_dir": str(out), "settings": settings, "sky": False, "run_id": "t"})
             for b in brackets]
     assert [r["status"] for r in rows] == ["done", "done", "failed"]
     assert "cam_0002.png" in rows[2]["error"]
     for r, dolp in zip(rows, (0.2, 0.35)):
         summary = json.loads((out / r["name"] / "summary.json").read_text())
         assert summary["mosaic"] == LAY and summary["demosaic"] == "superpixel"
-        assert r["angles_deg"] == ";".join(f"{a:g}" for a in summary["analyzer_angles_deg"])
+        assert r["analyzer_angles_deg"] == format_angle_list(summary["analyzer_angles_deg"]) == "90,45,135,0"
         # uniform invented scene of known DoLP (our own render)
         assert r["mean_dolp"] == pytest.approx(dolp, abs=2e-3)
 
 
-@pytest.mark.parametrize("extra,match", [
-    ({"mosaic": {"cell": LAY, "demosaic": "nope"}}, "demosaic 'nope' is not one of"),
-    ({"mosaic": {"cell": LAY}, "advise": {"region": [0, 0, 4, 4]}}, "not available for mosaic frames"),
-    ({"mosaic": {"cell": LAY}, "discovery": {"angles_deg": [0, 45, 90]}}, "does not apply to mosaic"),
-    ({"mosaic": {"cell": "1,2"}}, "."),
+@pytest.mark.parametrize("options, match", [
+    ({"mosaic": LAY, "demosaic": "nope"}, "--demosaic 'nope' is not a known demosaic method"),
+    ({"mosaic": LAY, "region": [0, 0, 4, 4]}, "not available for mosaic frames"),
+    ({"mosaic": LAY, "angles": [0, 45, 90]}, "--angles describes a bracket of frames and cannot be used with --mosaic"),
+    ({"mosaic": "1,2"}, "not a 2x2 cell"),
 ])
-def test_mosaic_settings_checked_before_running(extra, match):
+def test_mosaic_settings_checked_before_running(options, match):
     with pytest.raises(InputError, match=match):
-        runner.check_steps(merge_settings(extra))
+        runner.check_batch_settings(Settings.from_options(options), sky=False)
