@@ -13,15 +13,15 @@ from pathlib import Path
 
 import pytest
 
-from polarsky.batch.config import merge_settings
 from polarsky.batch.discover import discover_brackets
 from polarsky.batch.report import write_report
-from polarsky.batch.runner import process_bracket
-from polarsky.batch.synthetic import write_bracket
+from polarsky.batch.task import process_bracket
+from polarsky.options.settings import Settings
+from polarsky.synthetic.tree import write_bracket
 
 pytestmark = pytest.mark.browser
 
-_TOOL = Path(__file__).resolve().parents[1] / "tools" / "report_screenshot.py"
+_TOOL = Path(__file__).resolve().parents[2] / "tools" / "report_screenshot.py"
 _spec = importlib.util.spec_from_file_location("report_screenshot", _TOOL)
 shot = importlib.util.module_from_spec(_spec)
 _spec.loader.exec_module(shot)
@@ -39,12 +39,13 @@ def report(tmp_path_factory):
     write_bracket(root / "roof", "skylight", angles_deg=(0, 90), seed=2)  # fails: too few angles
     out = base / "out"
     out.mkdir()
-    with_advice = merge_settings({"advise": {"region": [4, 4, 40, 30]}})
-    fast = merge_settings({"stokes": {"pictures": False}})
+    with_advice = Settings.from_options({"region": [4, 4, 40, 30]})
+    fast = Settings.from_options({"pictures": False})
     rows = []
     for b in discover_brackets(root):
         settings = with_advice if b.name.endswith("quay") else fast
-        rows.append(process_bracket({"bracket": b, "out_dir": str(out), "settings": settings, "run_id": "t"}))
+        rows.append(process_bracket({"bracket": b, "out_dir": str(out), "settings": settings, "sky": False,
+                                     "run_id": "t"}))
     path = write_report(out / "report.html", rows, out_dir=out, title="polarsky batch: test")
     return path, rows
 
@@ -65,7 +66,7 @@ def test_report_loads_without_errors_and_shows_every_row(report, tmp_path):
         assert {"harbour__quay first frame", "harbour__quay DoLP map", "harbour__quay AoLP map",
                 "harbour__slip first frame"} <= set(alts)
         failures = c.eval("document.getElementById('failures').nextElementSibling.textContent")
-        assert "roof__skylight" in failures and "at least 3 analyzer angles" in failures
+        assert "roof__skylight" in failures and "at least 3 frames at distinct analyzer angles" in failures
         png = c.screenshot(tmp_path / "report.png")
         print(f"report screenshot: {png}")
         assert png.stat().st_size > 10_000
