@@ -7,10 +7,8 @@ import subprocess
 import sys
 from pathlib import Path
 
-from cli.main import main
-from polarsky.batch.synthetic import write_bracket
-
-REPO = Path(__file__).resolve().parents[1]
+from polarsky.cli.main import main
+from polarsky.synthetic.tree import write_bracket
 
 
 def _tree(root):
@@ -50,7 +48,7 @@ def test_time_gap_and_angles_options_reach_discovery(tmp_path, capsys):
         when = t0 + dt.timedelta(seconds=(k // 3) * 30 + k % 3)
         tifffile.imwrite(tmp_path / f"s{k}.tif", np.full((4, 4), 900, np.uint16),
                          datetime=when.strftime("%Y:%m:%d %H:%M:%S"))
-    assert main(["batch", str(tmp_path), "--list", "--json", "--angles", "0,60,120", "--time-gap", "5"]) == 0
+    assert main(["batch", str(tmp_path), "--list", "--json", "--angles", "0,60,120", "--time-gap-s", "5"]) == 0
     result = json.loads(capsys.readouterr().out)
     assert [len(b["frames"]) for b in result["brackets"]] == [3, 3]
     assert result["brackets"][0]["angles_deg"] == [0.0, 60.0, 120.0]
@@ -61,12 +59,12 @@ def test_bad_input_exits_2_with_one_error_line(tmp_path, capsys):
     cases = [
         (["batch", str(root)], "--out DIR is required"),
         (["batch", str(tmp_path / "none"), "--out", str(tmp_path / "o")], "is not a folder"),
-        (["batch", str(root), "--out", str(root / "a" / "pier_000deg.tif")], "exists and is not a folder"),
+        (["batch", str(root), "--out", str(root / "a" / "pier_000deg.tif")], "is a file"),
         (["batch", str(root), "--out", str(tmp_path / "o"), "--workers", "2", "--scheduler", "tcp://127.0.0.1:1"],
          "--workers sizes the local cluster"),
         (["batch", str(root), "--list", "--angles", "0,x,90"], "--angles"),
         (["batch", str(root), "--list", "--region", "1,2,3"], "region"),
-        (["batch", str(root), "--list", "--time-gap", "-1"], "time_gap_s"),
+        (["batch", str(root), "--list", "--time-gap-s", "-1"], "--time-gap-s"),
     ]
     for args, match in cases:
         assert main(args) == 2, args
@@ -74,35 +72,29 @@ def test_bad_input_exits_2_with_one_error_line(tmp_path, capsys):
         assert len(err) == 1 and err[0].startswith("error: ") and match in err[0], (args, err)
     assert not (tmp_path / "o").exists()  # nothing made for a bad ROOT
     cfg = tmp_path / "bad.toml"
-    cfg.write_text("[stokes]\ntransfr = 'srgb'\n[advice]\nregion = [0, 0, 4, 4]\n")
+    cfg.write_text("[read]\ntransfr = 'srgb'\n")
     assert main(["batch", str(root), "--list", "--config", str(cfg)]) == 2
     err = capsys.readouterr().err
-    assert "stokes.transfr" in err and "[advice]" in err
+    assert "bad.toml [read]: unknown key 'transfr'" in err and err.count("\n") == 1
+    cfg.write_text("[advice]\nregion = [0, 0, 4, 4]\n")
+    assert main(["batch", str(root), "--list", "--config", str(cfg)]) == 2
+    assert "[advice] is not a batch settings table" in capsys.readouterr().err
 
 
 def test_mosaic_options_need_a_cell(tmp_path, capsys):
     root = _tree(tmp_path / "in")
-    assert main(["batch", str(root), "--list", "--demosaic", "bilinear"]) == 2
-    assert "applies only to mosaic frames" in capsys.readouterr().err
-
-
-def test_mosaic_without_support_is_refused(tmp_path, capsys):
-    from polarsky.batch.runner import mosaic_function
-
-    if mosaic_function() is not None:  # mosaic support present: see test_batch_mosaic.py
-        return
-    root = _tree(tmp_path / "in")
-    assert main(["batch", str(root), "--out", str(tmp_path / "o"), "--mosaic", "90,45;135,0"]) == 2
-    assert "polarsky.mosaic is not available" in capsys.readouterr().err
+    assert main(["batch", str(root), "--out", str(tmp_path / "o"), "--demosaic", "bilinear"]) == 2
+    assert "--demosaic apply only to mosaic frames" in capsys.readouterr().err
+    assert not (tmp_path / "o").exists()
 
 
 def test_subprocess_list(tmp_path):
-    """As a subprocess (the SIGKILL test in test_batch_kill.py runs whole batches this way)."""
+    """As a subprocess (the SIGKILL test in tests/batch/test_runner_kill.py runs whole batches this way)."""
     root = _tree(tmp_path / "in")
-    r = subprocess.run([sys.executable, "-m", "cli.main", "batch", str(root), "--list", "--json"], cwd=REPO,
+    r = subprocess.run([sys.executable, "-m", "polarsky", "batch", str(root), "--list", "--json"], cwd=tmp_path,
                        capture_output=True, text=True, timeout=60)
     assert r.returncode == 0 and r.stderr == ""
     assert json.loads(r.stdout)["count"] == 3
-    r = subprocess.run([sys.executable, "-m", "cli.main", "batch", str(root), "--list", "--time-gap", "x"],
-                       cwd=REPO, capture_output=True, text=True, timeout=60)
+    r = subprocess.run([sys.executable, "-m", "polarsky", "batch", str(root), "--list", "--time-gap-s", "x"],
+                       cwd=tmp_path, capture_output=True, text=True, timeout=60)
     assert r.returncode == 2 and r.stderr.startswith("error: ") and r.stderr.count("\n") == 1
