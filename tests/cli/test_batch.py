@@ -5,7 +5,6 @@ from __future__ import annotations
 import json
 import subprocess
 import sys
-from pathlib import Path
 
 from polarsky.cli.main import main
 from polarsky.synthetic.tree import write_bracket

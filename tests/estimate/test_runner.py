@@ -57,6 +57,7 @@ def _same_for_every_block_size(frames, settings, compiled):
     ((0, 60, 120), 1, {}),                              # noise model
     ((5, 40, 80, 120, 160), 3, {"extinction": 300}),   # colour, 5 frames, filter model
     ((0, 45, 90, 135), 1, {"noise": "model", "gain_e_per_dn": 2.0}),
+    (tuple(range(0, 180, 20)), 1, {}),                  # 9 frames: no compiled solve pass, the reference fit
 ])
 def test_bracket_products_do_not_depend_on_block_size(tmp_path, angles, channels, options):
     s = smooth_scene(23, 17, channels=channels)
