@@ -1,98 +1,129 @@
-"""Speed of mosaic decoding plus Stokes on a 2448x2048 mono frame, per method.
+"""Speed of one 2448x2048 polarization-mosaic frame through the command's own path, per method.
 
-Prints frames per second of (a) decoding + S0, S1, S2 (the issue's figure; targets: superpixel
-and bilinear >= 20 fps, the higher-order method >= 2 fps on the 2-core reference machine),
-(b) the same plus DoLP and AoLP (the core's fused kernel, polarsky._kernels.stokes_maps), and (c) the full per-pixel
-products of the Dataset path (channels + polarsky.pipeline.estimate_block: uncertainties,
-debiased DoLP, residual), beside the time of one plain copy of the frame's bytes.
+Times, for each demosaicing method:
 
-Run from the repository root:  python benchmarks/bench_mosaic.py [--repeat 7]
-Times are the best of --repeat runs (the machine may be shared); the median is shown too.
+(a) the fused compiled pass alone (decode + S, mean, residual: ``polarsky.mosaic.fast.fast_fit``);
+(b) every Stokes product of the frame through the row-block runner, as ``polarsky stokes`` runs it
+    (``tasks._common.open_source`` + ``estimate.runner.run_blocks``, products kept in memory);
+(c) ``polarsky stokes FRAME --mosaic CELL --demosaic METHOD --no-pictures --out DIR`` in-process
+    (``tasks.stokes.run_stokes``: read the PNG, estimate, write stokes.nc and summary.json);
+(d) the same command as a new process (``python -m polarsky``), start-up included;
+
+beside the floors it cannot beat: one copy of the frame's bytes, and reading the PNG plus writing
+the same number of output bytes with plain numpy.
+
+Run from the repository root:  python benchmarks/bench_mosaic.py [--repeat 5] [--write]
+Times are the best of --repeat runs (the machine may be shared); medians are shown too.
 """
 
 from __future__ import annotations
 
 import argparse
 import os
+import re
+import shutil
+import subprocess
 import sys
+import tempfile
 import time
+from pathlib import Path
 
 import numpy as np
 
-sys.path.insert(0, os.path.join(os.path.dirname(__file__), ".."))
-
-from polarsky.mosaic.decode import decode_mosaic, fast_stokes, fast_stokes_maps, position_matrix  # noqa: E402
-from polarsky.mosaic.layout import parse_mosaic  # noqa: E402
-from polarsky.mosaic.methods import DEMOSAIC_METHODS  # noqa: E402
-from polarsky.mosaic.synthetic import mosaic_sample, scene_edges  # noqa: E402
-from polarsky.pipeline import estimate_block  # noqa: E402
+ROOT = Path(__file__).resolve().parents[1]
+sys.path.insert(0, str(ROOT))
 
 W_PX, H_PX = 2448, 2048
+CELL = "90,45;135,0"
 
 
 def best(f, repeat):
-    """Best and median wall time, and the CPU time (all threads) of the best run."""
-    f()  # warm-up
-    t, c = [], []
+    """(best, median) wall time of ``f`` after one warm-up run."""
+    f()
+    t = []
     for _ in range(repeat):
-        c0, t0 = time.process_time(), time.perf_counter()
+        t0 = time.perf_counter()
         f()
         t.append(time.perf_counter() - t0)
-        c.append(time.process_time() - c0)
-    i = int(np.argmin(t))
-    best.cpu = c[i]
-    return t[i], float(np.median(t))
+    return min(t), float(np.median(t))
 
 
 def main(argv=None):
     ap = argparse.ArgumentParser(description=__doc__.splitlines()[0])
-    ap.add_argument("--repeat", type=int, default=7)
-    ap.add_argument("--full", action="store_true", help="also time the full Dataset products (slow)")
+    ap.add_argument("--repeat", type=int, default=5)
     ap.add_argument("--write", action="store_true", help="put the printed lines into docs/mosaic.md")
     args = ap.parse_args(argv)
-    layout = parse_mosaic("90,45;135,0")
+
+    import cv2
+
+    from polarsky.estimate.runner import run_blocks
+    from polarsky.estimate.sinks import MemorySink
+    from polarsky.mosaic.decode import position_matrix
+    from polarsky.mosaic.fast import fast_fit
+    from polarsky.mosaic.layout import parse_mosaic
+    from polarsky.options.settings import Settings
+    from polarsky.registries import DEMOSAIC_METHODS
+    from polarsky.synthetic.mosaic import mosaic_sample, scene_edges, write_mosaic_png
+    from polarsky.tasks._common import open_source
+    from polarsky.tasks.stokes import run_stokes
+
+    layout = parse_mosaic(CELL)
     rng = np.random.default_rng(0)
-    raw = mosaic_sample(scene_edges(H_PX, W_PX), layout)
-    counts = np.clip(np.round((raw + rng.normal(0, 0.002, raw.shape)) * 4095), 0, 4095).astype(np.uint16)
-    values = counts.astype(np.float32) / np.float32(4095)
+    raw = np.clip(mosaic_sample(scene_edges(H_PX, W_PX), layout) + rng.normal(0, 0.002, (H_PX, W_PX)), 0, 1)
+    tmp = Path(tempfile.mkdtemp(prefix="bench-mosaic-"))
+    frame = tmp / "frame.png"
+    write_mosaic_png(frame, raw.astype(np.float32), bits=16, full=4095)
+    values = (np.round(raw * 4095) / 4095).astype(np.float32)
     w = position_matrix(layout)
     lines = []
 
-    def say(text):  # print and keep the line for --write
+    def say(text):
         lines.append(text)
-        print(text)
+        print(text, flush=True)
 
-    say(f"mosaic frame {W_PX}x{H_PX}, 12-bit data in uint16 ({counts.nbytes / 1e6:.1f} MB), "
-          f"float32 linear values; {os.cpu_count()} CPUs, load average {os.getloadavg()[0]:.2f}")
-    tc, tcm = best(lambda: counts.copy(), args.repeat)
-    say(f"plain copy of the frame's bytes: {tc * 1e3:.2f} ms (median {tcm * 1e3:.2f})")
-    say(f"{'method':<11} {'decode+S0,S1,S2 (wall, cpu of all threads)':>44} {'+ DoLP, AoLP':>22}" + (f" {'Dataset products':>22}" if args.full else ""))
+    say(f"mosaic frame {W_PX}x{H_PX}, 12-bit data in a 16-bit PNG ({frame.stat().st_size / 1e6:.1f} MB); "
+        f"{os.cpu_count()} CPUs, load average {os.getloadavg()[0]:.2f}")
+    counts = np.round(raw * 4095).astype(np.uint16)
+    t_copy, _ = best(lambda: counts.copy(), args.repeat)
+    say(f"floor: one copy of the frame's bytes {t_copy * 1e3:.1f} ms")
+    say(f"{'method':<11} {'fused pass':>12} {'all products':>14} {'command':>10} {'new process':>12} {'I/O floor':>10}")
     for name in DEMOSAIC_METHODS:
-        t1, m1 = best(lambda: fast_stokes(values, w, name), args.repeat)
-        c1 = best.cpu
+        k = DEMOSAIC_METHODS[name].scale
+        n_out = (H_PX // k) * (W_PX // k)
+        t_fast, _ = best(lambda: fast_fit(values, w, name), args.repeat)
+        settings = Settings.from_options({"mosaic": CELL, "demosaic": name, "bit_depth": 12, "pictures": False})
 
-        t2, m2 = best(lambda: fast_stokes_maps(values, w, name), args.repeat)
-        line = (f"{name:<11} {1 / t1:7.1f} fps ({t1 * 1e3:6.1f} ms, cpu {c1 * 1e3:6.1f} ms) "
-                f"{1 / t2:7.1f} fps ({t2 * 1e3:6.1f} ms)")
-        if args.full:
-            def full():
-                dec = decode_mosaic(values, None, layout, name)
-                estimate_block(dec["intensities"], dec["valid"], dec["w"], full_scale=4095.0)
+        def products():
+            op = open_source([frame], settings)
+            names = ("S0", "S1", "S2", "dolp", "dolp_unbiased", "aolp", "sigma_dolp", "sigma_aolp", "residual",
+                     "valid")
+            run_blocks(op.source, op.noise, [MemorySink(op.source.shape, 1, names)])
 
-            t3, _ = best(full, max(2, args.repeat // 3))
-            line += f" {1 / t3:7.2f} fps ({t3 * 1e3:6.0f} ms)"
-        say(line)
-    say("targets: superpixel and bilinear >= 20 fps, newton >= 2 fps (decode + S0, S1, S2)")
+        t_all, _ = best(products, args.repeat)
+        out = tmp / f"out-{name}"
+        t_cmd, m_cmd = best(lambda: run_stokes([frame], out, settings), args.repeat)
+        cmd = [sys.executable, "-m", "polarsky", "stokes", str(frame), "--mosaic", CELL, "--demosaic", name,
+               "--bit-depth", "12", "--no-pictures", "--out", str(tmp / f"proc-{name}")]
+        t_proc, _ = best(lambda: subprocess.run(cmd, check=True, capture_output=True), max(1, args.repeat // 2))
+        nbytes = n_out * 4 * 9 + n_out
+
+        def floor():  # read the PNG, write as many bytes as the products with plain numpy
+            a = cv2.imread(str(frame), cv2.IMREAD_UNCHANGED).astype(np.float32)
+            np.zeros(nbytes // 4, np.float32).tofile(tmp / "floor.bin")
+            return a
+
+        t_floor, _ = best(floor, args.repeat)
+        say(f"{name:<11} {t_fast * 1e3:9.0f} ms {t_all * 1e3:11.0f} ms {t_cmd * 1e3:7.0f} ms {t_proc * 1e3:9.0f} ms "
+            f"{t_floor * 1e3:7.0f} ms   ({1 / t_cmd:.1f} frames/s in-process, median {m_cmd * 1e3:.0f} ms)")
+    say("the command runs the compiled fused pass of each method (mono sensor, no per-pixel calibration)")
+    shutil.rmtree(tmp, ignore_errors=True)
     if args.write:
-        import re
-
-        path = os.path.join(os.path.dirname(__file__), "..", "docs", "mosaic.md")
-        text = open(path, encoding="utf-8").read()
+        path = ROOT / "docs" / "mosaic.md"
+        text = path.read_text(encoding="utf-8")
         block = "```\n" + "\n".join(lines) + "\n```\n"
         text = re.sub(r"(<!-- speed-table:start -->\n).*?(<!-- speed-table:end -->)",
                       lambda m: m.group(1) + block + m.group(2), text, flags=re.S)
-        with open(path, "w", encoding="utf-8") as f:
-            f.write(text)
+        path.write_text(text, encoding="utf-8")
 
 
 if __name__ == "__main__":

@@ -1,1 +1,1 @@
-"""Command-line front end of polarsky: a thin layer of click commands over the library."""
+"""The command line, installed as ``polarsky.cli`` (see :mod:`polarsky.cli.main`)."""

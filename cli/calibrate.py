@@ -1,7 +1,7 @@
-"""``polarsky calibrate``: make analyzer calibration files (CAL.nc).
+"""``polarsky calibrate``: make calibration files (``DIR/calibration.nc``).
 
 Each kind of calibration is a sub-command in its own module, listed in
-:data:`CALIBRATE_MODULES` (``cli.<name>`` must define ``command``).
+:data:`CALIBRATE_MODULES` (``polarsky.cli.<name>`` must define ``command``).
 """
 
 from __future__ import annotations
@@ -17,10 +17,10 @@ CALIBRATE_MODULES: list[str] = [
 ]
 
 
-@click.group(name="calibrate")
+@click.group(name="calibrate", short_help="Make a calibration (flat bench frames or the clear sky).")
 def command():
-    """Make a calibration file (CAL.nc) for 'polarsky stokes --calibration'."""
+    """Make a calibration folder (calibration.nc, calibration.json) for '--calibration DIR'."""
 
 
 for _name in CALIBRATE_MODULES:
-    command.add_command(importlib.import_module(f"cli.{_name}").command)
+    command.add_command(importlib.import_module(f"{__package__}.{_name}").command)

@@ -1,15 +1,17 @@
-"""The ``polarsky`` console command.
+"""The ``polarsky`` console command (installed as ``polarsky.cli``).
 
-Each sub-command lives in its own module of this package and exposes a click command
-named ``command``; :data:`COMMAND_MODULES` lists them.  ``main(args)`` can be called
-in-process by tests.  Exit status: 0 success, 1 the job ran but part of it failed
-(batch), 2 bad input or usage, with one line ``error: ...`` on stderr.
+Each sub-command lives in its own module of this package and exposes a click command named
+``command``; :data:`COMMAND_MODULES` lists them and they are imported only when run (so
+``polarsky --help`` stays quick).  ``main(args)`` can be called in-process by tests.  Exit
+status: 0 success, 1 the job ran but part of it failed (batch), 2 bad input or usage, with
+one line ``error: ...`` on stderr.
 """
 
 from __future__ import annotations
 
 import importlib
 import os
+import signal
 import sys
 import warnings
 
@@ -18,56 +20,78 @@ import click
 from polarsky._version import __version__
 from polarsky.errors import InputError, PolarskyWarning, one_line
 
-#: Sub-command modules (``cli.<name>`` must define ``command``).
-COMMAND_MODULES = [
-    "stokes",
-    "advise",
-    "demo",
-    "calibrate",
-    "sky",
-    "batch",
-]
+#: Sub-commands (each the module of this package of the same name) and their one-line
+#: summaries for ``polarsky --help``.
+COMMAND_MODULES = dict(
+    advise="Which way to set the filter, and what it removes.",
+    batch="Process every bracket of a folder tree, locally or on dask.",
+    calibrate="Make a calibration (flat bench frames or the clear sky).",
+    demo="Run polarsky on an invented scene with known truth.",
+    sky="Compare the sky with the clear-sky model.",
+    stokes="Stokes maps, DoLP and AoLP with uncertainties.",
+)
 
 
-class _Group(click.Group):
+class _LazyGroup(click.Group):
+    """Imports a sub-command's module only when that command runs or shows its help."""
+
     def list_commands(self, ctx):
-        return sorted(super().list_commands(ctx))
+        return sorted(COMMAND_MODULES)
+
+    def get_command(self, ctx, name):
+        if name not in COMMAND_MODULES:
+            return None
+        return importlib.import_module(f"{__package__}.{name}").command
+
+    def format_commands(self, ctx, formatter):
+        rows = [(name, COMMAND_MODULES[name]) for name in self.list_commands(ctx)]
+        with formatter.section("Commands"):
+            formatter.write_dl(rows)
 
 
-@click.group(cls=_Group, context_settings={"help_option_names": ["-h", "--help"]})
+@click.group(cls=_LazyGroup, context_settings={"help_option_names": ["-h", "--help"], "max_content_width": 100})
 @click.version_option(__version__, prog_name="polarsky")
 def cli():
-    """polarsky: calibrated polarization from polarizer brackets and polarization cameras.
+    """polarsky: calibrated polarization from filter brackets and polarization cameras.
 
     Angles are degrees in the image plane, from the image's +x axis (to the right)
-    counter-clockwise as seen on the displayed image; AoLP is in [0, 180).  If you give
+    counter-clockwise as seen on the displayed image; AoLP is in [0, 180). If you give
     filter-ring readings instead of absolute angles, recommended angles are ring readings
     on that same scale.
     """
 
 
-for _name in COMMAND_MODULES:
-    _mod = importlib.import_module(f"cli.{_name}")
-    cli.add_command(_mod.command)
-
-
 def _show_warning(message, category, filename, lineno, file=None, line=None):
-    prefix = "warning" if issubclass(category, PolarskyWarning) else category.__name__
+    prefix = "warning" if issubclass(category, PolarskyWarning) else f"warning ({category.__name__})"
     print(f"{prefix}: {one_line(message)}", file=sys.stderr)
+
+
+def _terminate(signum, frame):
+    raise KeyboardInterrupt
 
 
 def main(args=None) -> int:
     """Run the command line with ``args`` (default ``sys.argv[1:]``); return the exit status."""
     old = warnings.showwarning
     warnings.showwarning = _show_warning
+    old_term = None
+    if sys.platform != "win32":
+        try:  # SIGTERM cleans up like Ctrl-C: staging folders are removed, outputs stay whole
+            old_term = signal.signal(signal.SIGTERM, _terminate)
+        except ValueError:  # not the main thread (tests calling main in a worker)
+            old_term = None
     try:
         rv = cli.main(args=args, prog_name="polarsky", standalone_mode=False)
         return int(rv or 0)
     except InputError as exc:
         print(f"error: {exc}", file=sys.stderr)
         return 2
+    except PolarskyWarning as exc:  # python -W error: a warning became an error
+        print(f"error: {one_line(exc)} (warnings are errors in this Python)", file=sys.stderr)
+        return 2
     except click.UsageError as exc:
-        hint = f" (see 'polarsky {exc.ctx.info_name} --help')" if exc.ctx and exc.ctx.parent else " (see 'polarsky --help')"
+        hint = f" (see 'polarsky {exc.ctx.command_path.split(' ', 1)[-1]} --help')" if exc.ctx and exc.ctx.parent else \
+            " (see 'polarsky --help')"
         print(f"error: {one_line(exc.format_message())}{hint}", file=sys.stderr)
         return 2
     except click.exceptions.Exit as exc:
@@ -76,8 +100,11 @@ def main(args=None) -> int:
         print("error: aborted", file=sys.stderr)
         return 2
     except KeyboardInterrupt:
-        print("error: interrupted", file=sys.stderr)
+        print("error: interrupted; nothing was published", file=sys.stderr)
         return 130
+    except MemoryError:
+        print("error: out of memory; process smaller frames or raise the machine's memory", file=sys.stderr)
+        return 2
     except OSError as exc:
         print(f"error: {one_line(exc)}", file=sys.stderr)
         return 2
@@ -89,6 +116,8 @@ def main(args=None) -> int:
         return 1
     finally:
         warnings.showwarning = old
+        if old_term is not None:
+            signal.signal(signal.SIGTERM, old_term)
 
 
 def entry() -> None:  # pragma: no cover - thin wrapper

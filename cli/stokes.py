@@ -1,45 +1,40 @@
-"""``polarsky stokes``: Stokes maps from a bracket (or a mosaic frame)."""
+"""``polarsky stokes``: Stokes maps from a bracket or from polarization-mosaic frames."""
 
 from __future__ import annotations
 
 import click
 
-from polarsky.pipeline import run_stokes
+from polarsky.write.jsonio import print_json
 
-from .common import ANGLE_HELP, bracket_kwargs, bracket_options, frames_argument, print_json, progress_wanted
-from .mosaic_options import mosaic_options, mosaic_run_from_options, strip_mosaic_options
+from .options import frames_command, pop_settings
+
+GROUPS = ("read", "mosaic", "estimate", "output")
 
 
-@click.command(name="stokes", epilog=ANGLE_HELP)
-@frames_argument
-@bracket_options
-@click.option("--out", "out_dir", required=True, type=click.Path(file_okay=False, path_type=str),
-              help="Folder for stokes.nc, summary.json and the PNG maps.")
-@click.option("--json", "as_json", is_flag=True, help="Print the summary as one JSON object.")
-@mosaic_options
+@frames_command("stokes", groups=GROUPS, short_help='Stokes maps, DoLP and AoLP with uncertainties.',
+                out_help='Folder for stokes.nc, summary.json and the PNG maps (replaced whole).')
 def command(frames, out_dir, as_json, **kw):
     """Per-pixel Stokes S0, S1, S2, DoLP and AoLP (with uncertainties) from FRAME... .
 
-    Writes stokes.nc (NetCDF-4), summary.json, dolp.png, aolp.png, polarization.png and,
-    with more than 3 frames, residual.png.
+    FRAME... is a bracket shot through a filter at several angles, or (with --mosaic) the raw
+    frames of a polarization-mosaic camera. Writes stokes.nc (NetCDF-4), summary.json,
+    dolp.png, aolp.png, polarization.png and, with more than 3 analyzers, residual.png.
     """
-    mosaic = strip_mosaic_options(kw)
-    opts = bracket_kwargs(kw)
-    # polarization-mosaic camera (cli/mosaic_options.py); None when --mosaic is absent
-    summary = mosaic_run_from_options(list(frames), out_dir, mosaic, bracket_opts=opts)
-    if summary is None:
-        summary = run_stokes(list(frames), out_dir, progress=progress_wanted(as_json), **opts)
+    from polarsky.tasks.stokes import run_stokes
+
+    summary = run_stokes(list(frames), out_dir, progress=not as_json, **pop_settings(kw, *GROUPS))
     if as_json:
         print_json(summary)
         return 0
-    md = summary.get("mean_dolp", {})
-    click.echo(f"{summary['frames']} frames at {', '.join(f'{a:g}' for a in summary['analyzer_angles_deg'])} deg "
-               f"({summary['angle_source']}), {summary['width']}x{summary['height']}, channels {','.join(summary['channels'])}")
+    click.echo(f"{summary['frames']} {'frames' if summary['source_kind'] == 'bracket' else 'mosaic frame(s)'}, "
+               f"analyzers at {', '.join(f'{a:g}' for a in summary['analyzer_angles_deg'])} deg "
+               f"({summary['angle_source']}), {summary['width_px']}x{summary['height_px']} px, channels "
+               f"{','.join(summary['channels'])}")
     if summary.get("shifts_px"):
         click.echo("alignment shifts (dx, dy px): " + "; ".join(f"{dx:+.2f},{dy:+.2f}" for dx, dy in summary["shifts_px"]))
-    click.echo("mean DoLP: " + ", ".join(f"{k} {v:.3f}" for k, v in md.items() if v is not None))
-    if "residual_relative_median" in summary:
-        click.echo(f"fit residual: median {summary['residual_relative_median'] * 100:.2f}% of S0, "
-                   f"99th percentile {summary['residual_relative_p99'] * 100:.2f}% (see residual.png)")
+    click.echo("mean DoLP: " + ", ".join(f"{k} {v:.3f}" for k, v in summary["mean_dolp"].items() if v is not None))
+    if summary.get("median_relative_residual") is not None:
+        click.echo(f"fit residual: median {summary['median_relative_residual'] * 100:.2f}% of S0, "
+                   f"99th percentile {summary['p99_relative_residual'] * 100:.2f}% (see residual.png)")
     click.echo(f"wrote {', '.join(summary['outputs'])} to {out_dir}")
     return 0

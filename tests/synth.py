@@ -38,7 +38,7 @@ def _name(folder, stem, angle, ext):
 def write_pngs(folder, frames, angles_deg, *, bits=16, stem="scene", srgb=False):
     import cv2
 
-    from polarsky.transfer import linear_to_srgb
+    from polarsky.core.transfer import linear_to_srgb
 
     folder = Path(folder)
     folder.mkdir(parents=True, exist_ok=True)

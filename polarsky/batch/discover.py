@@ -2,15 +2,20 @@
 
 Three rules, tried in this order for each folder:
 
-1. **manifest** -- a folder that holds ``manifest.csv`` (columns ``file,angle_deg`` and
-   optionally ``exposure_s``) is one bracket; its sub-folders are not searched further.
-2. **name** -- image files whose names carry an angle token ``<number>deg`` (for example
-   ``pier_045deg.tif``, ``pier_22.5deg_b.png``) are grouped by the rest of the name (the
-   common stem, here ``pier`` and ``pier_b``); the angle comes from the token.
-3. **time** -- the remaining image files of a folder are grouped by their EXIF capture time:
+1. **manifest** -- a folder that holds ``manifest.csv`` is one bracket, read by the same
+   manifest reader as every command (:mod:`polarsky.read.manifest`); its sub-folders are not
+   searched further.
+2. **name** -- frame files whose names carry an angle token (``pier_045deg.tif``,
+   ``pier_22.5deg_b.png``) are grouped by the rest of the name (the stem, here ``pier`` and
+   ``pier_b``); the token is read by the same parser as every command
+   (:mod:`polarsky.read.names`).
+3. **time** -- the remaining frame files of a folder are grouped by their EXIF capture time:
    a new bracket starts where the gap between consecutive frames exceeds ``time_gap_s``.
-   Their analyzer angles come from the batch settings (``angles_deg``, in shot order); a
-   group holding a whole multiple of that many frames is split into consecutive brackets.
+   Their analyzer angles come from the batch settings (``angles``, in shot order); a group
+   holding a whole multiple of that many frames is split into consecutive brackets.
+
+Frame files are those of :data:`polarsky.read.formats.FRAME_SUFFIXES` (the formats every
+command reads).
 
 With a mosaic cell configured, every frame outside manifest folders is one bracket
 (a raw frame of a polarization-mosaic camera) instead of rules 2 and 3.
@@ -26,29 +31,24 @@ hidden folder of the output tree.
 
 from __future__ import annotations
 
-import csv
 import datetime as _dt
 import os
 import re
 from dataclasses import dataclass
 from pathlib import Path
 
+from ..errors import InputError
+from ..read.exif import read_metadata
+from ..read.formats import FRAME_SUFFIXES, MOSAIC_SUFFIXES
+from ..read.manifest import MANIFEST_NAME, read_manifest
+from ..read.names import split_name
+
 __all__ = [
     "Bracket",
-    "IMAGE_EXTENSIONS",
     "discover_brackets",
     "safe_name",
 ]
 
-#: File name suffixes (lower case) treated as frames.
-IMAGE_EXTENSIONS = (
-    ".tif", ".tiff", ".png", ".jpg", ".jpeg", ".pgm", ".ppm",
-    ".dng", ".cr2", ".cr3", ".nef", ".arw", ".orf", ".rw2", ".raf", ".pef", ".srw",
-)
-
-# The last "<number>deg" in a file stem, not followed by a letter ("45degrees" is no token).
-_ANGLE_TOKEN = re.compile(r"(?i)(\d+(?:\.\d+)?)deg(?![a-z])")
-_SEPARATORS = "_-. "
 _SAFE = re.compile(r"[^A-Za-z0-9._-]+")
 
 
@@ -88,6 +88,12 @@ class Bracket:
     reason: str
     problem: str | None = None
 
+    def as_key(self) -> dict:
+        """What identifies the bracket's inputs for the completion hash (file names, not paths)."""
+        return {"name": self.name, "rule": self.rule, "frames": [Path(f).name for f in self.frames],
+                "angles_deg": list(self.angles_deg) if self.angles_deg is not None else None,
+                "manifest": Path(self.manifest).name if self.manifest else None}
+
     def as_dict(self) -> dict:
         return {
             "name": self.name,
@@ -124,73 +130,35 @@ def _fmt_angle(a: float) -> str:
     return f"{a:g}"
 
 
-def _is_image(p: Path, extensions) -> bool:
-    return p.suffix.lower() in extensions
-
-
-def read_manifest_frames(path: Path):
-    """Return ``(frames, angles_deg, problem)`` from a manifest.csv (frames resolved)."""
+def _manifest_bracket(path: Path):
+    """``(frames, angles_deg, problem)`` of a manifest.csv, read by the one manifest reader."""
     try:
-        with open(path, "r", newline="", encoding="utf-8-sig") as fh:
-            rows = list(csv.DictReader(fh))
-    except (OSError, UnicodeDecodeError, csv.Error) as exc:
-        return (), None, f"cannot read {path.name}: {exc}"
-    if not rows or "file" not in rows[0] or "angle_deg" not in rows[0]:
-        return (), None, f"{path.name} needs the columns file,angle_deg[,exposure_s]"
-    frames, angles, missing = [], [], []
-    for i, row in enumerate(rows, start=2):
-        name = (row.get("file") or "").strip()
+        man = read_manifest(path)
+    except InputError as exc:
         try:
-            angle = float(row.get("angle_deg"))
-        except (TypeError, ValueError):
-            return (), None, f"{path.name} line {i}: angle_deg {row.get('angle_deg')!r} is not a number"
-        frame = (path.parent / name)
-        if not name or not frame.is_file():
-            missing.append(name or f"(empty, line {i})")
-        frames.append(frame)
-        angles.append(angle)
-    problem = None
-    if missing:
-        problem = f"missing frame(s) listed in {path.name}: {', '.join(missing)}"
-    return tuple(frames), tuple(angles), problem
-
-
-def exif_capture_time(path: Path):
-    """Capture time of ``path`` from EXIF (``DateTimeOriginal`` + sub-seconds) or None."""
-    import exifread
-
-    try:
-        with open(path, "rb") as fh:
-            tags = exifread.process_file(fh, details=False, stop_tag="SubSecTimeOriginal")
-    except Exception:  # exifread raises many kinds on odd files; no time then
-        return None
-    raw = tags.get("EXIF DateTimeOriginal") or tags.get("Image DateTime")
-    if raw is None:
-        return None
-    try:
-        t = _dt.datetime.strptime(str(raw).strip(), "%Y:%m:%d %H:%M:%S")
-    except ValueError:
-        return None
-    sub = tags.get("EXIF SubSecTimeOriginal")
-    seconds = t.timestamp()
-    if sub is not None and str(sub).strip().isdigit():
-        digits = str(sub).strip()
-        seconds += int(digits) / 10 ** len(digits)
-    return seconds
+            man = read_manifest(path, check_files=False)
+        except InputError:
+            return (), None, str(exc)
+        return man.files, man.angles_deg, str(exc)
+    return man.files, man.angles_deg, None
 
 
 def _group_by_name(files):
+    """Files with an angle token grouped by stem; the rest; and files whose name is ambiguous."""
     groups: dict[str, list] = {}
-    rest = []
+    rest, bad = [], []
     for f in files:
-        matches = list(_ANGLE_TOKEN.finditer(f.stem))
-        if not matches:
+        try:
+            parsed = split_name(f)
+        except InputError as exc:
+            bad.append((f, str(exc)))
+            continue
+        if parsed is None:
             rest.append(f)
             continue
-        m = matches[-1]
-        stem = (f.stem[: m.start()].rstrip(_SEPARATORS) + "_" + f.stem[m.end():].lstrip(_SEPARATORS)).strip("_")
-        groups.setdefault(stem, []).append((float(m.group(1)), f))
-    return groups, rest
+        stem, angle = parsed
+        groups.setdefault(stem, []).append((angle, f))
+    return groups, rest, bad
 
 
 def _split_by_time(files_times, gap_s):
@@ -206,9 +174,8 @@ def _split_by_time(files_times, gap_s):
     return groups
 
 
-def discover_brackets(root, *, time_gap_s: float = 10.0, angles_deg=None,
-                      manifest_name: str = "manifest.csv", extensions=IMAGE_EXTENSIONS,
-                      exclude_dirs=(), mosaic_cell: str | None = None) -> list[Bracket]:
+def discover_brackets(root, *, time_gap_s: float = 10.0, angles_deg=None, exclude_dirs=(),
+                      mosaic_cell: str | None = None) -> list[Bracket]:
     """Walk ``root`` and return its brackets in a stable (sorted) order.
 
     Parameters
@@ -219,12 +186,8 @@ def discover_brackets(root, *, time_gap_s: float = 10.0, angles_deg=None,
         Seconds between consecutive EXIF capture times that start a new bracket.
     angles_deg : sequence of float, optional
         Analyzer angles (degrees) of time-grouped brackets, in shot order.
-    manifest_name : str
-        File name that makes a folder a manifest bracket.
-    extensions : sequence of str
-        Lower-case suffixes of frame files.
     exclude_dirs : sequence of path
-        Folders not to search (the batch output folder when it lies inside ``root``).
+        Folders not to search (the batch output folder, wherever it lies).
     mosaic_cell : str, optional
         Frames come from a polarization-mosaic camera with this 2x2 cell: outside manifest
         folders every frame file is a bracket of its own (rule ``"mosaic"``).
@@ -232,18 +195,22 @@ def discover_brackets(root, *, time_gap_s: float = 10.0, angles_deg=None,
     Returns
     -------
     list of Bracket
-    """
-    from ..errors import InputError
 
+    Notes
+    -----
+    Folders that are symbolic links are followed (each real folder once); hidden folders
+    (names starting with ``.``) are not searched.
+    """
     root = Path(root)
     if not root.is_dir():
         raise InputError(f"batch root {root} is not a folder; give the folder that holds the brackets")
     root_abs = root.resolve()
     excluded = {Path(d).resolve() for d in exclude_dirs}
-    extensions = tuple(e.lower() for e in extensions)
+    suffixes = MOSAIC_SUFFIXES if mosaic_cell else FRAME_SUFFIXES
     angles = tuple(float(a) for a in angles_deg) if angles_deg is not None else None
     found: list[Bracket] = []
     used: set[str] = {"summary.csv", "report.html"}
+    seen: set = set()
 
     def unique(parts):
         base = "__".join(safe_name(p) for p in parts if p) or "bracket"
@@ -254,26 +221,31 @@ def discover_brackets(root, *, time_gap_s: float = 10.0, angles_deg=None,
         used.add(name.lower())
         return name
 
-    for dirpath, dirnames, filenames in os.walk(root_abs, followlinks=False):
+    for dirpath, dirnames, filenames in os.walk(root_abs, followlinks=True):
         here = Path(dirpath)
-        dirnames[:] = sorted(d for d in dirnames
-                             if not d.startswith(".") and (here / d).resolve() not in excluded)
+        real = here.resolve()
+        if real in seen or real in excluded or _is_output_folder(here):
+            dirnames[:] = []
+            continue
+        seen.add(real)
+        dirnames[:] = sorted(d for d in dirnames if not d.startswith(".") and (here / d).resolve() not in excluded)
         rel = here.relative_to(root_abs)
         rel_parts = rel.parts if rel.parts else (root_abs.name,)
         label_dir = rel.as_posix() if rel.parts else "."
         filenames = sorted(filenames)
-        if manifest_name in filenames:
+        if MANIFEST_NAME in filenames:
             dirnames[:] = []
-            mpath = here / manifest_name
-            frames, m_angles, problem = read_manifest_frames(mpath)
+            mpath = here / MANIFEST_NAME
+            frames, m_angles, problem = _manifest_bracket(mpath)
             found.append(Bracket(
-                name=unique(rel_parts), label=label_dir, frames=frames, angles_deg=m_angles,
+                name=unique(rel_parts), label=label_dir, frames=tuple(frames), angles_deg=m_angles,
                 manifest=mpath, rule="manifest",
-                reason=f"folder holds {manifest_name} ({len(frames)} frames"
+                reason=f"folder holds {MANIFEST_NAME} ({len(frames)} frames"
                        + (f" at {', '.join(_fmt_angle(a) for a in m_angles)} deg)" if m_angles else ")"),
                 problem=problem))
             continue
-        files = [here / f for f in filenames if not f.startswith(".") and _is_image(here / f, extensions)]
+        files = [here / f for f in filenames if not f.startswith(".") and (here / f).suffix.lower() in suffixes
+                 and (here / f).is_file()]
         if not files:
             continue
         if mosaic_cell:
@@ -283,18 +255,14 @@ def discover_brackets(root, *, time_gap_s: float = 10.0, angles_deg=None,
                     angles_deg=None, manifest=None, rule="mosaic",
                     reason=f"one raw frame of a polarization-mosaic camera (cell {mosaic_cell})"))
             continue
-        by_name, rest = _group_by_name(files)
+        by_name, rest, bad = _group_by_name(files)
+        for f, why in bad:
+            found.append(Bracket(name=unique(rel_parts + (f.stem,)), label=f"{label_dir}/{f.name}", frames=(f,),
+                                 angles_deg=None, manifest=None, rule="name", reason="angle token in the file name",
+                                 problem=why))
         for stem in sorted(by_name):
             items = sorted(by_name[stem], key=lambda af: (af[0], af[1].name))
             a_list = [a for a, _ in items]
-            problem = None
-            dup = sorted({a for a in a_list if a_list.count(a) > 1})
-            if dup:
-                names = [f.name for a, f in items if a in dup]
-                problem = f"two frames at the same angle ({', '.join(names)}); keep one per angle"
-            elif len(items) < 3:
-                problem = (f"only {len(items)} frame(s) ({', '.join(f.name for _, f in items)}); "
-                           "a bracket needs at least 3 analyzer angles")
             label_stem = stem or "(no stem)"
             found.append(Bracket(
                 name=unique(rel_parts + ((stem,) if stem else ())),
@@ -302,39 +270,16 @@ def discover_brackets(root, *, time_gap_s: float = 10.0, angles_deg=None,
                 angles_deg=tuple(a_list), manifest=None, rule="name",
                 reason=(f"{len(items)} files named {label_stem} + angle token "
                         f"({', '.join(_fmt_angle(a) for a in a_list)} deg)"),
-                problem=problem))
+                problem=_angle_problem(a_list, [f.name for _, f in items])))
         if not rest:
             continue
         timed, untimed = [], []
         for f in rest:
-            t = exif_capture_time(f)
+            t = read_metadata(f).get("capture_time_s")
             (untimed if t is None else timed).append((t, f))
         timed.sort(key=lambda tf: (tf[0], tf[1].name))
         for group in _split_by_time(timed, float(time_gap_s)):
-            chunks = [group]
-            n_ang = len(angles) if angles else 0
-            if n_ang and len(group) > n_ang and len(group) % n_ang == 0:
-                chunks = [group[i:i + n_ang] for i in range(0, len(group), n_ang)]
-            for chunk in chunks:
-                frames = tuple(f for _, f in chunk)
-                t0 = _dt.datetime.fromtimestamp(chunk[0][0]).strftime("%Y-%m-%d %H:%M:%S")
-                span = chunk[-1][0] - chunk[0][0]
-                problem = None
-                if not angles:
-                    problem = ("frames grouped by capture time carry no angles; give angles_deg "
-                               "(shot order) in the config [discovery] table or --angles")
-                elif len(frames) != n_ang:
-                    problem = (f"{len(frames)} frames captured together but {n_ang} angles given "
-                               f"({', '.join(_fmt_angle(a) for a in angles)} deg); check for a missing "
-                               "or extra frame or change time_gap_s")
-                found.append(Bracket(
-                    name=unique(rel_parts + (frames[0].stem,)),
-                    label=f"{label_dir}/{frames[0].name}..{frames[-1].name}", frames=frames,
-                    angles_deg=angles if (angles and len(frames) == n_ang) else None,
-                    manifest=None, rule="time",
-                    reason=(f"{len(frames)} frames shot from {t0} within {span:.1f} s "
-                            f"(gap > {float(time_gap_s):g} s starts a new bracket)"),
-                    problem=problem))
+            found.extend(_time_brackets(group, angles, label_dir, rel_parts, unique, time_gap_s))
         if untimed:
             frames = tuple(f for _, f in sorted(untimed, key=lambda tf: tf[1].name))
             found.append(Bracket(
@@ -345,3 +290,53 @@ def discover_brackets(root, *, time_gap_s: float = 10.0, angles_deg=None,
                          + (" ..." if len(frames) > 5 else "")
                          + ": name the frames <stem>_<angle>deg, add a manifest.csv, or keep EXIF times")))
     return found
+
+
+def _is_output_folder(folder: Path) -> bool:
+    """A bracket folder a batch wrote (it holds a batch.json marker): never searched for frames."""
+    from .state import read_marker
+
+    return read_marker(folder) is not None
+
+
+def _angle_problem(angles, names) -> str | None:
+    """What the bracket reader would refuse in these angles (the same check), or None."""
+    from ..core.stokes import check_angles
+
+    if len(angles) < 3:
+        return (f"only {len(angles)} frame(s) ({', '.join(names)}); a bracket needs at least 3 frames at distinct "
+                "analyzer angles")
+    try:
+        check_angles(angles, warn_condition=float("inf"))
+    except InputError as exc:
+        return str(exc)
+    return None
+
+
+def _time_brackets(group, angles, label_dir, rel_parts, unique, time_gap_s):
+    chunks = [group]
+    n_ang = len(angles) if angles else 0
+    if n_ang and len(group) > n_ang and len(group) % n_ang == 0:
+        chunks = [group[i:i + n_ang] for i in range(0, len(group), n_ang)]
+    out = []
+    for chunk in chunks:
+        frames = tuple(f for _, f in chunk)
+        t0 = _dt.datetime.fromtimestamp(chunk[0][0], _dt.timezone.utc).strftime("%Y-%m-%d %H:%M:%S")
+        span = chunk[-1][0] - chunk[0][0]
+        problem = None
+        if not angles:
+            problem = ("frames grouped by capture time carry no angles; give angles (shot order) in the batch "
+                       "settings ([read] angles) or --angles")
+        elif len(frames) != n_ang:
+            problem = (f"{len(frames)} frames captured together but {n_ang} angles given "
+                       f"({', '.join(_fmt_angle(a) for a in angles)} deg); check for a missing or extra frame or "
+                       "change time_gap_s")
+        out.append(Bracket(
+            name=unique(rel_parts + (frames[0].stem,)),
+            label=f"{label_dir}/{frames[0].name}..{frames[-1].name}", frames=frames,
+            angles_deg=angles if (angles and len(frames) == n_ang) else None,
+            manifest=None, rule="time",
+            reason=(f"{len(frames)} frames shot from {t0} within {span:.1f} s "
+                    f"(gap > {float(time_gap_s):g} s starts a new bracket)"),
+            problem=problem))
+    return out

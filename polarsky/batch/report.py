@@ -19,9 +19,12 @@ from pathlib import Path
 
 import numpy as np
 
+from ..palette import rgb
+
 __all__ = ["make_thumbnails", "write_report", "axis_endpoints"]
 
 THUMB_DOLP, THUMB_AOLP, THUMB_FRAME = "thumb_dolp.png", "thumb_aolp.png", "thumb_frame.png"
+_AXIS_NAME = "magenta"  # the colour of COLOURS["recommended_axis"] in polarsky.palette
 
 
 def axis_endpoints(angle_deg: float, width: int, height: int):
@@ -48,38 +51,21 @@ def _shrink(img, px):
 
 
 def _frame_preview(path: Path, px: int):
-    """An 8-bit grey preview of a frame (display only: percentile stretch, then sRGB-like gamma)."""
+    """An 8-bit grey preview of a frame (display only), decoded by the reader every command uses."""
     from PIL import Image
 
-    suffix = path.suffix.lower()
-    arr = None
-    if suffix in (".tif", ".tiff"):
-        import tifffile
+    from ..errors import InputError
+    from ..read.frames import read_frame
 
-        try:
-            arr = tifffile.memmap(path, mode="r")
-        except Exception:  # compressed or tiled TIFF cannot be memory-mapped
-            arr = tifffile.imread(path)
-    elif suffix in (".png", ".jpg", ".jpeg", ".pgm", ".ppm"):
-        import imageio.v3 as iio
-
-        arr = iio.imread(path)
-    else:
-        try:
-            import rawpy
-
-            with rawpy.imread(str(path)) as raw:
-                arr = raw.postprocess(half_size=True, no_auto_bright=True, output_bps=8)
-        except Exception:
-            return None
-    arr = np.asarray(arr)
-    step = max(1, int(max(arr.shape[0], arr.shape[1]) // (2 * px)))
-    a = np.asarray(arr[::step, ::step], dtype=np.float32)
-    if a.ndim == 3:
-        a = a[..., :3].mean(axis=-1)
+    try:
+        fr = read_frame(path)
+    except InputError:
+        return None
+    step = max(1, int(max(fr.data.shape[1:]) // (2 * px)))
+    a = fr.data[:, ::step, ::step].astype(np.float32).mean(axis=0) / np.float32(fr.full_scale)
     lo, hi = np.nanpercentile(a, [0.5, 99.5]) if a.size else (0.0, 1.0)
     a = np.clip((a - lo) / max(hi - lo, 1e-12), 0, 1)
-    if np.dtype(arr.dtype).itemsize > 1:  # linear data: lift the shadows for viewing
+    if fr.encoding == "linear":  # linear data: lift the shadows for viewing
         a = a ** (1 / 2.2)
     img = Image.fromarray((a * 255 + 0.5).astype(np.uint8)).convert("RGB")
     if max(img.size) < px:  # small frames: enlarge (nearest) so the axis line stays visible
@@ -121,7 +107,7 @@ def make_thumbnails(folder, frames, *, px: int = 240, best_angle_deg=None) -> li
                 (x0, y0), (x1, y1) = axis_endpoints(float(best_angle_deg), prev.width, prev.height)
                 lw = max(2, prev.width // 80)
                 draw.line([(x0, y0), (x1, y1)], fill=(0, 0, 0), width=lw + 2)
-                draw.line([(x0, y0), (x1, y1)], fill=(255, 200, 0), width=lw)
+                draw.line([(x0, y0), (x1, y1)], fill=tuple(int(255 * c) for c in rgb("recommended_axis")), width=lw)
             prev.save(folder / THUMB_FRAME, compress_level=1)
             made.append(THUMB_FRAME)
     return made
@@ -193,12 +179,12 @@ COLUMNS = [
     ("name", "bracket", False, 0),
     ("status", "status", False, 0),
     ("frames", "frames", True, 0),
-    ("angles_deg", "angles (deg)", False, 0),
+    ("analyzer_angles_deg", "analyzer angles (deg)", False, 0),
     ("mean_dolp", "mean DoLP", True, 3),
     ("best_angle_deg", "best angle (deg)", True, 1),
     ("reduction_stops", "reduction (stops)", True, 2),
-    ("sky_dolp_residual_rms", "sky DoLP resid. RMS", True, 3),
-    ("sky_aolp_residual_rms_deg", "sky AoLP resid. RMS (deg)", True, 1),
+    ("rms_dolp_residual", "sky DoLP resid. RMS", True, 3),
+    ("rms_aolp_residual_deg", "sky AoLP resid. RMS (deg)", True, 1),
     ("time_s", "time (s)", True, 2),
 ]
 
@@ -214,10 +200,10 @@ def write_report(path, rows: list[dict], *, out_dir, title: str, embed_images: b
     n_done = sum(r["status"] == "done" for r in rows)
     n_skip = sum(r["status"] == "skipped" for r in rows)
     has_adv = any(r.get("best_angle_deg") not in (None, "") for r in rows)
-    has_sky = any(r.get("sky_dolp_residual_rms") not in (None, "") for r in rows)
+    has_sky = any(r.get("rms_dolp_residual") not in (None, "") for r in rows)
     cols = [c for c in COLUMNS
             if not (c[0] in ("best_angle_deg", "reduction_stops") and not has_adv)
-            and not (c[0].startswith("sky_") and not has_sky)]
+            and not (c[0] in ("rms_dolp_residual", "rms_aolp_residual_deg") and not has_sky)]
     e = html.escape
     out = ["<!DOCTYPE html>", '<html lang="en"><head><meta charset="utf-8">',
            '<meta name="viewport" content="width=device-width, initial-scale=1">',
@@ -229,7 +215,7 @@ def write_report(path, rows: list[dict], *, out_dir, title: str, embed_images: b
     for note in notes:
         out.append(f'<p class="note">{e(note)}</p>')
     out.append('<p class="small">Angles in degrees from the image +x axis, counter-clockwise as displayed. '
-               "The yellow line on a frame is the recommended filter axis. Click a column heading to sort.</p>")
+               f"The {_AXIS_NAME} line on a frame is the recommended filter axis. Click a column heading to sort.</p>")
     out.append('<table id="brackets"><thead><tr>')
     for key, head, numeric, _ in cols:
         out.append(f'<th data-key="{key}"' + (' data-type="num"' if numeric else "") + f">{e(head)}</th>")

@@ -22,7 +22,7 @@ import shutil
 import uuid
 from pathlib import Path
 
-__all__ = ["MARKER", "TMP_DIR", "bracket_key", "read_complete", "write_marker", "publish",
+__all__ = ["MARKER", "TMP_DIR", "bracket_key", "read_marker", "read_complete", "write_marker", "publish",
            "atomic_write_text", "file_sha256"]
 
 MARKER = "batch.json"
@@ -62,6 +62,16 @@ def bracket_key(input_files, settings: dict, version: str) -> str:
     return h.hexdigest()
 
 
+def read_marker(folder) -> dict | None:
+    """The ``batch.json`` marker of a folder a batch wrote, or None."""
+    try:
+        with open(Path(folder) / MARKER, "r", encoding="utf-8") as fh:
+            marker = json.load(fh)
+        return marker if isinstance(marker, dict) and "key" in marker and "row" in marker else None
+    except (OSError, ValueError):
+        return None
+
+
 def read_complete(folder) -> dict | None:
     """The marker of a complete bracket folder, or None when absent/incomplete."""
     folder = Path(folder)
@@ -78,30 +88,22 @@ def read_complete(folder) -> dict | None:
 
 def write_marker(folder, *, key: str, row: dict, run_id: str) -> dict:
     """List the files of ``folder`` and write its ``batch.json`` (last)."""
+    from ..write.stage import listed_files
+
     folder = Path(folder)
-    outputs = {}
-    for p in sorted(folder.rglob("*")):
-        if p.is_file() and p.name != MARKER and not any(part.startswith(".") for part in p.relative_to(folder).parts):
-            outputs[p.relative_to(folder).as_posix()] = p.stat().st_size
+    outputs = {n: (folder / n).stat().st_size for n in listed_files(folder) if n != MARKER}
     marker = {"key": key, "run_id": run_id, "outputs": outputs, "row": row}
     atomic_write_text(folder / MARKER, json.dumps(marker, indent=1, sort_keys=True))
     return marker
 
 
 def publish(tmp_folder, final_folder) -> None:
-    """Move a finished ``tmp_folder`` to ``final_folder`` (replacing an older one).
+    """Move a finished ``tmp_folder`` to ``final_folder`` (replacing an older one) by renames
+    (:func:`polarsky.write.stage.swap_in`): ``final_folder`` is always either absent, the old
+    complete folder or the new one."""
+    from ..write.stage import swap_in
 
-    The older folder is first renamed aside (inside the scratch area) and deleted after,
-    so ``final_folder`` is always either absent, the old complete folder or the new one.
-    """
-    tmp_folder, final_folder = Path(tmp_folder), Path(final_folder)
-    old = None
-    if final_folder.exists():
-        old = tmp_folder.parent / f"old-{final_folder.name}.{uuid.uuid4().hex[:8]}"
-        os.rename(final_folder, old)
-    os.rename(tmp_folder, final_folder)
-    if old is not None:
-        shutil.rmtree(old, ignore_errors=True)
+    swap_in(Path(tmp_folder), Path(final_folder))
 
 
 def atomic_write_text(path, text: str) -> None:

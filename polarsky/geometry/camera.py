@@ -1,6 +1,6 @@
 """Lens models: pixel <-> viewing ray in the camera frame (x right, y down, z forward).
 
-Models (registry :data:`LENS_MODELS`, which also feeds the ``--lens`` choices):
+Models (registry :data:`polarsky.registries.LENS_MODELS`, which also feeds the ``--lens`` choices):
 
 ``pinhole``
     Rectilinear (gnomonic) projection ``u = cx + f x/z``, ``v = cy + f y/z`` with optional
@@ -32,7 +32,7 @@ import numpy as np
 from ..errors import InputError
 
 __all__ = ["Lens", "PinholeLens", "FisheyeEquidistantLens", "FisheyeEquisolidLens",
-           "LENS_MODELS", "make_lens", "pixel_grid"]
+           "make_lens", "pixel_grid"]
 
 
 def pixel_grid(rows: slice, width: int, dtype=np.float32):
@@ -187,7 +187,7 @@ class _FisheyeLens(Lens):
 
     def describe(self) -> dict:
         d = super().describe()
-        d.update(fov_deg=float(self.fov_deg), circle_center_px=[float(self.circle_cx), float(self.circle_cy)],
+        d.update(fov_deg=float(self.fov_deg), circle_centre_px=[float(self.circle_cx), float(self.circle_cy)],
                  circle_radius_px=float(self.radius_px))
         return d
 
@@ -219,13 +219,6 @@ class FisheyeEquisolidLens(_FisheyeLens):
 
 
 #: Lens models by ``--lens`` name.
-LENS_MODELS = {
-    "pinhole": PinholeLens,
-    "fisheye-equidistant": FisheyeEquidistantLens,
-    "fisheye-equisolid": FisheyeEquisolidLens,
-}
-
-
 def _positive(name, value):
     if value is None:
         return None
@@ -236,14 +229,14 @@ def _positive(name, value):
 
 
 def make_lens(name: str, width: int, height: int, *, hfov_deg=None, focal_px=None, focal_mm=None,
-              sensor_width_mm=None, distortion=None, fov_deg=None, circle_center_px=None,
+              sensor_width_mm=None, distortion=None, fov_deg=None, circle_centre_px=None,
               circle_radius_px=None, principal_point_px=None) -> Lens:
     """Build a lens model for an image of ``width`` x ``height`` pixels.
 
     Parameters
     ----------
     name : str
-        One of :data:`LENS_MODELS`.
+        One of :data:`polarsky.registries.LENS_MODELS`.
     hfov_deg, focal_px, focal_mm, sensor_width_mm : float, optional
         Pinhole focal length: horizontal field of view (degrees, across the full width),
         focal length in pixels, or focal length in mm with the sensor width in mm (the
@@ -252,7 +245,7 @@ def make_lens(name: str, width: int, height: int, *, hfov_deg=None, focal_px=Non
         OpenCV distortion coefficients ``k1,k2,p1,p2[,k3...]`` (pinhole only).
     fov_deg : float
         Fisheye field of view across the image circle's diameter (degrees).
-    circle_center_px : (float, float), optional
+    circle_centre_px : (float, float), optional
         Fisheye image-circle centre (column, row); default the principal point.
     circle_radius_px : float, optional
         Fisheye image-circle radius; default half the shorter image side.
@@ -264,8 +257,10 @@ def make_lens(name: str, width: int, height: int, *, hfov_deg=None, focal_px=Non
     InputError
         Unknown lens, missing or non-positive focal/field values.
     """
-    if name not in LENS_MODELS:
-        raise InputError(f"lens {name!r} is not known; choose one of {', '.join(LENS_MODELS)}")
+    from ..registries import LENS_MODELS
+
+    name = LENS_MODELS.key(name)
+    cls = LENS_MODELS.get(name)
     cx, cy = ((width - 1) / 2.0, (height - 1) / 2.0) if principal_point_px is None else map(float, principal_point_px)
     if name == "pinhole":
         hfov = _positive("--hfov-deg", hfov_deg)
@@ -294,6 +289,6 @@ def make_lens(name: str, width: int, height: int, *, hfov_deg=None, focal_px=Non
         raise InputError(f"--lens {name} needs --fov-deg (the field of view across the image circle)")
     if fov > 360:
         raise InputError(f"--fov-deg {fov:g} is above 360")
-    ccx, ccy = (cx, cy) if circle_center_px is None else map(float, circle_center_px)
+    ccx, ccy = (cx, cy) if circle_centre_px is None else map(float, circle_centre_px)
     radius = _positive("--circle-radius-px", circle_radius_px) or min(width, height) / 2.0
-    return LENS_MODELS[name](width, height, cx, cy, fov_deg=fov, circle_cx=ccx, circle_cy=ccy, radius_px=radius)
+    return cls(width, height, cx, cy, fov_deg=fov, circle_cx=ccx, circle_cy=ccy, radius_px=radius)

@@ -1,21 +1,9 @@
-"""Polarization-mosaic (division-of-focal-plane) cameras: reading, decoding, per-pixel calibration.
+"""Polarization-mosaic (division-of-focal-plane) sensors: layout, decoding, flat calibration.
 
-Modules: :mod:`.layout` (the 2x2 cell and colour pattern), :mod:`.io` (frames),
-:mod:`.methods` (decoding methods and their registry), :mod:`.decode` (channels, colour and
-calibration for the Stokes fit), :mod:`.flatcal` (bench calibration), :mod:`.pipeline`
-(frames -> Stokes Dataset).
+:mod:`.layout` (the 2x2 cell and colour pattern), :mod:`.methods` (decoding methods:
+superpixel, bilinear; the registry entries), :mod:`.newton` (the Newton-polynomial method),
+:mod:`.colour` (colour sensors), :mod:`.decode` (channels, calibration, analysis matrices
+for the fit), :mod:`.fast` and :mod:`._kernels` (the compiled fused passes), :mod:`.flatcal`
+(bench calibration).  Frames are read by :mod:`polarsky.read.mosaic_frames` and estimated
+by :class:`polarsky.estimate.sources.MosaicSource`.
 """
-
-from .methods import DEMOSAIC_METHODS, demosaic
-from .layout import MosaicLayout, parse_mosaic
-from .pipeline import run_mosaic_stokes, stokes_from_mosaic_files, stokes_from_mosaic_values
-
-__all__ = [
-    "DEMOSAIC_METHODS",
-    "demosaic",
-    "MosaicLayout",
-    "parse_mosaic",
-    "run_mosaic_stokes",
-    "stokes_from_mosaic_files",
-    "stokes_from_mosaic_values",
-]

@@ -1,23 +1,28 @@
-"""Compiled (numba) fused kernels for the mosaic fast paths (float32 only).
+"""Compiled (numba) fused kernels of the mosaic fast paths (float32, monochrome sensors).
 
-:func:`superpixel_stokes` applies the solve matrix to each 2x2 cell; :func:`bilinear_stokes`
-computes, in one pass over memory, what
-:func:`polarsky.mosaic.methods.demosaic_bilinear` followed by the Stokes fit does: each
-pixel's four orientation values from the bilinear rule (own value; mean of the left/right,
-up/down or four diagonal neighbours; mirror reflection about the edge pixel at borders), then
-``S = P I`` with the (3, 4) solve matrix ``P``.  The numpy/OpenCV implementations stay the
-reference; tests check that both agree.
+Each ``*_pass`` decodes the four micro-polarizer intensities of every output pixel and fits
+them in the same pass: Stokes vector ``S = P I`` (``P`` the (3, 4) solve matrix of the cell
+positions), mean intensity and residual sum of squares ``sum_p (I_p - W_p S)^2``.  What
+the estimate does next (DoLP, AoLP, noise, uncertainties) is the common finish of
+:mod:`polarsky.estimate.block`.  The numpy/OpenCV decoders of :mod:`.methods` followed by
+the reference fit stay the reference; tests check that both agree.
+
+At a pixel of type ``t`` (its cell position, row-major), position ``t`` holds its own value,
+``t ^ 1`` its horizontal partner, ``t ^ 2`` its vertical partner and ``3 - t`` its diagonal
+partner.
 """
 
 from __future__ import annotations
 
 import numpy as np
-from numba import njit, prange
+from numba import prange
 
-__all__ = ["bilinear_stokes", "superpixel_stokes"]
+from ..core.kernels.policy import inline, parallel_kernel
+
+__all__ = ["superpixel_pass", "bilinear_pass", "newton_pass", "newton_diagonal", "newton_channels"]
 
 
-@njit(inline="always", cache=True)
+@inline
 def _mirror(i, n):
     if i < 0:
         return -i
@@ -26,79 +31,67 @@ def _mirror(i, n):
     return i
 
 
-@njit(parallel=True, fastmath=True, cache=True)
-def bilinear_stokes(raw, solve, out):
-    """Bilinear demosaic + Stokes of a mono mosaic in one pass.
-
-    Parameters
-    ----------
-    raw : float32 (H, W), H and W even
-    solve : float32 (3, 4), the solve matrix of the cell positions (row-major)
-    out : float32 (3, H, W), written
-    """
-    h, w = raw.shape
-    # cr[row parity, k, j, x]: weight of (own value, horizontal sum, vertical sum, diagonal
-    # sum) in S_k at column x; at a pixel of type t, position t holds its own value, t ^ 1 is
-    # its horizontal, t ^ 2 its vertical and 3 - t its diagonal partner.  Periodic rows of
-    # weights keep the inner loop free of branches (vectorisable).
-    cr = np.empty((2, 3, 4, w), np.float32)
-    for ty in range(2):
-        for x in range(w):
-            t = 2 * ty + (x & 1)
-            for k in range(3):
-                cr[ty, k, 0, x] = solve[k, t]
-                cr[ty, k, 1, x] = 0.5 * solve[k, t ^ 1]
-                cr[ty, k, 2, x] = 0.5 * solve[k, t ^ 2]
-                cr[ty, k, 3, x] = 0.25 * solve[k, 3 - t]
-    for y in prange(h):
-        ym = _mirror(y - 1, h)
-        yp = _mirror(y + 1, h)
-        c = cr[y & 1]
-        r = raw[y]
-        u = raw[ym]
-        d = raw[yp]
-        o0 = out[0, y]
-        o1 = out[1, y]
-        o2 = out[2, y]
-        for x in range(1, w - 1):
-            cc = r[x]
-            hs = r[x - 1] + r[x + 1]
-            vs = u[x] + d[x]
-            ds = u[x - 1] + u[x + 1] + d[x - 1] + d[x + 1]
-            o0[x] = c[0, 0, x] * cc + c[0, 1, x] * hs + c[0, 2, x] * vs + c[0, 3, x] * ds
-            o1[x] = c[1, 0, x] * cc + c[1, 1, x] * hs + c[1, 2, x] * vs + c[1, 3, x] * ds
-            o2[x] = c[2, 0, x] * cc + c[2, 1, x] * hs + c[2, 2, x] * vs + c[2, 3, x] * ds
-        for x in (0, w - 1):  # borders: mirror about the edge pixel
-            xm = _mirror(x - 1, w)
-            xp = _mirror(x + 1, w)
-            cc = r[x]
-            hs = r[xm] + r[xp]
-            vs = u[x] + d[x]
-            ds = u[xm] + u[xp] + d[xm] + d[xp]
-            for k in range(3):
-                out[k, y, x] = c[k, 0, x] * cc + c[k, 1, x] * hs + c[k, 2, x] * vs + c[k, 3, x] * ds
+@inline
+def _fit(t, own, hor, ver, dia, p, w):
+    """``(s0, s1, s2, mean, rss)`` of a pixel of type ``t`` from its four intensities."""
+    th, tv, td = t ^ 1, t ^ 2, 3 - t
+    s0 = p[0, t] * own + p[0, th] * hor + p[0, tv] * ver + p[0, td] * dia
+    s1 = p[1, t] * own + p[1, th] * hor + p[1, tv] * ver + p[1, td] * dia
+    s2 = p[2, t] * own + p[2, th] * hor + p[2, tv] * ver + p[2, td] * dia
+    r0 = own - (w[t, 0] * s0 + w[t, 1] * s1 + w[t, 2] * s2)
+    r1 = hor - (w[th, 0] * s0 + w[th, 1] * s1 + w[th, 2] * s2)
+    r2 = ver - (w[tv, 0] * s0 + w[tv, 1] * s1 + w[tv, 2] * s2)
+    r3 = dia - (w[td, 0] * s0 + w[td, 1] * s1 + w[td, 2] * s2)
+    return s0, s1, s2, (own + hor + ver + dia) * np.float32(0.25), r0 * r0 + r1 * r1 + r2 * r2 + r3 * r3
 
 
-@njit(parallel=True, fastmath=True, cache=True)
-def superpixel_stokes(raw, solve, out):
-    """Superpixel Stokes of a mono mosaic in one pass: ``out[:, j, i] = P . (the four pixels of
-    cell (j, i), row-major)``.  ``out`` float32 (3, H/2, W/2)."""
-    h2, w2 = out.shape[1], out.shape[2]
-    p = solve
+@inline
+def _fit_store(t, own, hor, ver, dia, p, w, s_out, mean_out, rss_out, y, x):
+    """Fit a pixel (see :func:`_fit`) and store its results at ``(y, x)`` of the outputs."""
+    s0, s1, s2, m, rss = _fit(t, own, hor, ver, dia, p, w)
+    s_out[0, y, x] = s0
+    s_out[1, y, x] = s1
+    s_out[2, y, x] = s2
+    mean_out[y, x] = m
+    rss_out[y, x] = rss
+
+
+@parallel_kernel
+def superpixel_pass(raw, p, w, s_out, mean_out, rss_out):
+    """One output pixel per 2x2 cell: ``s_out`` (3, H/2, W/2), ``mean_out``, ``rss_out`` (H/2, W/2)."""
+    h2, w2 = mean_out.shape
     for j in prange(h2):
         r0 = raw[2 * j]
         r1 = raw[2 * j + 1]
         for i in range(w2):
-            a = r0[2 * i]
-            b = r0[2 * i + 1]
-            c = r1[2 * i]
-            d = r1[2 * i + 1]
-            out[0, j, i] = p[0, 0] * a + p[0, 1] * b + p[0, 2] * c + p[0, 3] * d
-            out[1, j, i] = p[1, 0] * a + p[1, 1] * b + p[1, 2] * c + p[1, 3] * d
-            out[2, j, i] = p[2, 0] * a + p[2, 1] * b + p[2, 2] * c + p[2, 3] * d
+            # a cell seen from its position-0 pixel: own 0, horizontal 1, vertical 2, diagonal 3
+            _fit_store(0, r0[2 * i], r0[2 * i + 1], r1[2 * i], r1[2 * i + 1], p, w, s_out, mean_out, rss_out, j, i)
 
 
-@njit(inline="always", fastmath=True, cache=True)
+@inline
+def _bilinear_pixel(raw, y, ym, yp, x, xm, xp, ty, p, w, s_out, mean_out, rss_out):
+    own = raw[y, x]
+    hor = (raw[y, xm] + raw[y, xp]) * np.float32(0.5)
+    ver = (raw[ym, x] + raw[yp, x]) * np.float32(0.5)
+    dia = (raw[ym, xm] + raw[ym, xp] + raw[yp, xm] + raw[yp, xp]) * np.float32(0.25)
+    _fit_store(ty + (x & 1), own, hor, ver, dia, p, w, s_out, mean_out, rss_out, y, x)
+
+
+@parallel_kernel
+def bilinear_pass(raw, p, w, s_out, mean_out, rss_out):
+    """Bilinear demosaic (mirror about the edge pixel) and fit of every pixel, (3, H, W) etc."""
+    h, wd = raw.shape
+    for y in prange(h):
+        ym = _mirror(y - 1, h)
+        yp = _mirror(y + 1, h)
+        ty = 2 * (y & 1)
+        for x in range(1, wd - 1):
+            _bilinear_pixel(raw, y, ym, yp, x, x - 1, x + 1, ty, p, w, s_out, mean_out, rss_out)
+        _bilinear_pixel(raw, y, ym, yp, 0, 1, 1, ty, p, w, s_out, mean_out, rss_out)
+        _bilinear_pixel(raw, y, ym, yp, wd - 1, wd - 2, wd - 2, ty, p, w, s_out, mean_out, rss_out)
+
+
+@inline
 def _newton_dir(n1, n3, c, f, eps):
     """One-sided Newton estimate ``n1 + (c - f)/2`` and its weight ``1/(|n1-n3| + |c-f| + eps)^2``,
     returned as (weighted estimate, weight)."""
@@ -108,7 +101,7 @@ def _newton_dir(n1, n3, c, f, eps):
     return (n1 + np.float32(0.5) * e) * wgt, wgt
 
 
-@njit(parallel=True, fastmath=True, cache=True)
+@parallel_kernel
 def newton_diagonal(rp, eps, dp):
     """Pass 1 of the Newton method: at every pixel, the orientation of its diagonal neighbours.
 
@@ -128,9 +121,9 @@ def newton_diagonal(rp, eps, dp):
             dp[i, j] = (a0 + a1 + a2 + a3) / (w0 + w1 + w2 + w3)
 
 
-@njit(inline="always", fastmath=True, cache=True)
+@inline
 def _newton_hv(rp, dp, ry, rx, dy, dx, eps):
-    """Pass 2 at one pixel: (horizontal partner, vertical partner) values."""
+    """Pass 2 at one pixel: (own, horizontal partner, vertical partner) values."""
     m0 = rp[ry, rx]
     # horizontal partner: real samples left/right, pass-1 values above/below
     a0, w0 = _newton_dir(rp[ry, rx - 1], rp[ry, rx - 3], m0, rp[ry, rx - 2], eps)
@@ -147,7 +140,7 @@ def _newton_hv(rp, dp, ry, rx, dy, dx, eps):
     return m0, hv, vv
 
 
-@njit(parallel=True, fastmath=True, cache=True)
+@parallel_kernel
 def newton_channels(rp, dp, eps, out):
     """Pass 2 of the Newton method, writing the four orientation channels ``out`` (4, H, W)."""
     h, w = out.shape[1], out.shape[2]
@@ -162,24 +155,12 @@ def newton_channels(rp, dp, eps, out):
             out[3 - t, y, x] = dp[y + 3, x + 3]
 
 
-@njit(parallel=True, fastmath=True, cache=True)
-def newton_stokes(rp, dp, eps, solve, out):
-    """Pass 2 of the Newton method fused with the Stokes fit: ``out`` (3, H, W)."""
-    h, w = out.shape[1], out.shape[2]
-    cr = np.empty((2, 3, 4, w), np.float32)
-    for ty in range(2):
-        for x in range(w):
-            t = 2 * ty + (x & 1)
-            for k in range(3):
-                cr[ty, k, 0, x] = solve[k, t]
-                cr[ty, k, 1, x] = solve[k, t ^ 1]
-                cr[ty, k, 2, x] = solve[k, t ^ 2]
-                cr[ty, k, 3, x] = solve[k, 3 - t]
+@parallel_kernel
+def newton_pass(rp, dp, eps, p, w, s_out, mean_out, rss_out):
+    """Pass 2 of the Newton method fused with the fit: ``s_out`` (3, H, W), ``mean_out``, ``rss_out``."""
+    h, wd = mean_out.shape
     for y in prange(h):
-        c = cr[y & 1]
-        for x in range(w):
+        ty = 2 * (y & 1)
+        for x in range(wd):
             m0, hv, vv = _newton_hv(rp, dp, y + 6, x + 6, y + 3, x + 3, eps)
-            dv = dp[y + 3, x + 3]
-            out[0, y, x] = c[0, 0, x] * m0 + c[0, 1, x] * hv + c[0, 2, x] * vv + c[0, 3, x] * dv
-            out[1, y, x] = c[1, 0, x] * m0 + c[1, 1, x] * hv + c[1, 2, x] * vv + c[1, 3, x] * dv
-            out[2, y, x] = c[2, 0, x] * m0 + c[2, 1, x] * hv + c[2, 2, x] * vv + c[2, 3, x] * dv
+            _fit_store(ty + (x & 1), m0, hv, vv, dp[y + 3, x + 3], p, w, s_out, mean_out, rss_out, y, x)

@@ -41,10 +41,11 @@ from dataclasses import dataclass, field
 
 import numpy as np
 
-from ..calibration import Calibration
+from ..core.stokes import check_angles
+from ..conventions import SATURATION_FRACTION
 from ..errors import InputError, PolarskyWarning
-from ..stokes import check_angles, distinct_orientations
-from .io import read_mosaic_frame
+from ..estimate.calibration import Calibration
+from ..read.mosaic_frames import read_mosaic_frame
 from .layout import MosaicLayout, bayer_cell_colours, check_frame_shape, parse_mosaic
 
 __all__ = ["FlatFit", "fit_flat", "fit_flat_files", "flat_summary", "flat_calibration", "DEFECT_CODES"]
@@ -72,13 +73,7 @@ def _check_bench_angles(angles_deg, n_frames):
     a = np.asarray(angles_deg, dtype=np.float64).ravel()
     if a.size != n_frames:
         raise InputError(f"{n_frames} calibration frames but {a.size} angles; give one --angles value per frame")
-    distinct = distinct_orientations(a)
-    if distinct.size < 3:
-        raise InputError(
-            f"only {distinct.size} distinct reference-polarizer angle(s) modulo 180 deg; a flat "
-            "calibration needs at least 3 (typically 12 to 36 spread over 180 deg)"
-        )
-    check_angles(a)
+    check_angles(a, what="reference-polarizer angles")  # at least 3 orientations; typically 12 to 36
     return a
 
 
@@ -195,7 +190,7 @@ def fit_flat_files(frames, angles_deg, *, mosaic, mosaic_colour=None, dark=(), b
         nonlocal invalid, n_sat
         for f in frames:
             v, inv, info = read_mosaic_frame(f, bit_depth=bit_depth, black_level=black_level, transfer=transfer)
-            sat = v >= 0.98
+            sat = v >= SATURATION_FRACTION
             n_sat += int(sat.sum())
             invalid = sat if invalid is None else (invalid | sat)
             yield v
@@ -260,21 +255,21 @@ def flat_summary(fit: FlatFit) -> dict:
     return {
         "sensor_shape": [int(h), int(w)],
         "mosaic": fit.layout.text,
-        "mosaic_colour": fit.layout.colour or "none",
+        "mosaic_colour": fit.layout.colour,
         "n_frames": int(fit.info.get("n_frames", 0)),
         "n_dark_frames": int(fit.info.get("n_dark", 0)),
         "reference_angles_deg": [round(float(a), 4) for a in fit.angles_deg],
         "dead_pixels": int((fit.defect == 1).sum()),
         "hot_pixels": int((fit.defect == 2).sum()),
         "saturated_pixels": int((fit.defect == 3).sum()),
-        "median_sigma_angle_deg": round(float(np.nanmedian(fit.sigma_angle_deg[ok])), 5) if ok.any() else None,
+        "median_pixel_angle_sigma_deg": round(float(np.nanmedian(fit.sigma_angle_deg[ok])), 5) if ok.any() else None,
         "median_residual_rms": float(np.nanmedian(fit.residual_rms[ok])) if ok.any() else None,
         "positions": positions,
     }
 
 
 def flat_calibration(fit: FlatFit, summary=None) -> Calibration:
-    """Pack a :class:`FlatFit` into a :class:`~polarsky.calibration.Calibration` (kind "flat")."""
+    """Pack a :class:`FlatFit` into a :class:`~polarsky.estimate.calibration.Calibration` (kind "flat")."""
     summary = flat_summary(fit) if summary is None else summary
     px = lambda a: np.asarray(a, dtype=np.float32)[None]  # noqa: E731 - channel dim of the raw sensor grid
     return Calibration(
@@ -284,12 +279,12 @@ def flat_calibration(fit: FlatFit, summary=None) -> Calibration:
             "pixel_diattenuation": px(fit.diattenuation),
             "pixel_angle_deg": px(fit.angle_deg),
             "pixel_defect": px(fit.defect),
-            "pixel_sigma_angle_deg": px(fit.sigma_angle_deg),
-            "pixel_sigma_diattenuation": px(fit.sigma_diattenuation),
+            "pixel_angle_sigma_deg": px(fit.sigma_angle_deg),
+            "pixel_diattenuation_sigma": px(fit.sigma_diattenuation),
         },
         attrs={
             "mosaic": fit.layout.text,
-            "mosaic_colour": fit.layout.colour or "",
+            "mosaic_colour": fit.layout.colour,
             "sensor_shape": [int(v) for v in fit.gain.shape],
             "channels": ["sensor"],
             "reference_angles_deg": [float(a) for a in fit.angles_deg],

@@ -6,7 +6,7 @@ by ``;``, angles left to right within a row, in degrees in the project's image c
 (from the image +x axis, counter-clockwise as displayed).  Position ``k = 2*row + col``
 (row-major, 0..3) indexes the micro-polarizers of the cell.
 
-On colour sensors every 2x2 polarizer cell sits under one colour filter and the cells
+On colour sensors every 2x2 micro-polarizer cell sits under one colour filter and the cells
 follow a Bayer pattern, so colour repeats every 4x4 pixels.  The Bayer order (``RGGB``,
 ``BGGR``, ``GRBG``, ``GBRG``) names the colours of the 2x2 block of *cells*, row-major.
 """
@@ -18,11 +18,11 @@ from dataclasses import dataclass
 import numpy as np
 
 from ..errors import InputError
-from ..stokes import distinct_orientations
+from ..core.stokes import distinct_orientations
 
 __all__ = ["MosaicLayout", "parse_mosaic", "BAYER_ORDERS", "check_frame_shape"]
 
-#: Bayer orders of the polarizer cells, row-major over a 2x2 block of cells.
+#: Bayer orders of the micro-polarizer cells, row-major over a 2x2 block of cells.
 BAYER_ORDERS = ("RGGB", "BGGR", "GRBG", "GBRG")
 
 _EXAMPLE = "e.g. --mosaic \"90,45;135,0\""

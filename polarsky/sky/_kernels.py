@@ -9,7 +9,7 @@ References
 ----------
 .. [1] S. Chandrasekhar, *Radiative Transfer*, Oxford (1950) (single scattering).
 .. [2] M. Abramowitz, I. A. Stegun, *Handbook of Mathematical Functions*, NBS (1964),
-   eq. 4.4.49 (the arctangent polynomial, via :func:`polarsky._kernels.atan2_as`).
+   eq. 4.4.49 (the arctangent polynomial, via :func:`polarsky.core.kernels.compiled.atan2_poly`).
 """
 
 from __future__ import annotations
@@ -17,17 +17,17 @@ from __future__ import annotations
 import math
 
 import numpy as np
-from numba import njit, prange
+from numba import prange
 
-from .._kernels import atan2_as
+from ..core.kernels.compiled import atan2_poly as atan2_as
+from ..core.kernels.policy import parallel_kernel
 
 __all__ = ["pinhole_rayleigh_maps"]
 
-_FM = {"contract", "afn", "reassoc", "nsz", "arcp"}
 _DEG = 57.29577951308232
 
 
-@njit(parallel=True, fastmath=_FM, cache=True)
+@parallel_kernel
 def _maps(sun, up, east, north, f, cx, cy, dmax, sensor, dolp, aolp, scat, elev, azim, upm,
           w_dolp, w_aolp, w_scat, w_elev, w_azim, w_up):
     h, w = upm.shape if w_up else (dolp.shape if w_dolp else aolp.shape)
@@ -92,7 +92,7 @@ def _maps(sun, up, east, north, f, cx, cy, dmax, sensor, dolp, aolp, scat, elev,
                 upm[r, c] = (up[0] * x + up[1] * y + up[2]) > 0
 
 
-@njit(parallel=True, fastmath=_FM, cache=True)
+@parallel_kernel
 def _front_maps(s0, s1, s2, u0, u1, u2, f, cx, cy, dmax, dolp, aolp, upm):
     """DoLP, AoLP and the horizon test only, front placement: row terms hoisted, branch-light."""
     h, w = upm.shape

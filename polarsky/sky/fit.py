@@ -113,7 +113,7 @@ def fit_dolp_max(dolp_obs, shape, *, max_samples: int = 200_000, seed: int = 0) 
         pick = np.random.default_rng(seed).choice(d.size, size=max_samples, replace=False)
         d, f = d[pick], f[pick]
     if d.size < 2 or not np.any(f > 0):
-        return {"dolp_max": float("nan"), "dolp_max_sigma": float("nan"), "samples": int(d.size)}
+        return {"dolp_max": float("nan"), "dolp_max_sigma": float("nan"), "fit_samples": int(d.size)}
     d0 = float(np.dot(f, d) / np.dot(f, f))
     r0 = d - d0 * f
     scale = max(1.4826 * float(np.median(np.abs(r0 - np.median(r0)))), 1e-4)
@@ -122,7 +122,7 @@ def fit_dolp_max(dolp_obs, shape, *, max_samples: int = 200_000, seed: int = 0) 
     dof = max(d.size - 1, 1)
     var = 2.0 * res.cost / dof
     cov = var / float(j[:, 0] @ j[:, 0])
-    return {"dolp_max": float(res.x[0]), "dolp_max_sigma": float(np.sqrt(cov)), "samples": int(d.size)}
+    return {"dolp_max": float(res.x[0]), "dolp_max_sigma": float(np.sqrt(cov)), "fit_samples": int(d.size)}
 
 
 def wrap_aolp_difference(a_deg, b_deg):
@@ -148,13 +148,13 @@ def residual_stats(dolp_res, aolp_res, used) -> dict:
     am = ar if ar.size <= 500_000 else rng.choice(ar, 500_000, replace=False)
     if dr.size == 0:
         nan = float("nan")
-        return {"dolp_rms": nan, "aolp_rms_deg": nan, "dolp_mad": nan, "aolp_mad_deg": nan,
-                "dolp_bias": nan, "aolp_bias_deg": nan}
+        return {"rms_dolp_residual": nan, "rms_aolp_residual_deg": nan, "mad_dolp_residual": nan, "mad_aolp_residual_deg": nan,
+                "median_dolp_residual": nan, "median_aolp_residual_deg": nan}
     return {
-        "dolp_rms": float(np.sqrt(np.mean(dr ** 2))),
-        "aolp_rms_deg": float(np.sqrt(np.mean(ar ** 2))),
-        "dolp_mad": float(1.4826 * np.median(np.abs(dm - np.median(dm)))),
-        "aolp_mad_deg": float(1.4826 * np.median(np.abs(am - np.median(am)))),
-        "dolp_bias": float(np.median(dm)),
-        "aolp_bias_deg": float(np.median(am)),
+        "rms_dolp_residual": float(np.sqrt(np.mean(dr ** 2))),
+        "rms_aolp_residual_deg": float(np.sqrt(np.mean(ar ** 2))),
+        "mad_dolp_residual": float(1.4826 * np.median(np.abs(dm - np.median(dm)))),
+        "mad_aolp_residual_deg": float(1.4826 * np.median(np.abs(am - np.median(am)))),
+        "median_dolp_residual": float(np.median(dm)),
+        "median_aolp_residual_deg": float(np.median(am)),
     }

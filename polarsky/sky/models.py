@@ -4,7 +4,7 @@ A model maps the sun direction, the zenith and the viewing rays (same frame, ray
 length) to the DoLP and an E-vector direction per ray.  Its ``shape(sun, rays, up=)`` is
 the DoLP for ``dolp_max = 1`` so a linear scale can be fitted; ``evector(sun, rays, *,
 need_z, up=)`` returns the E-vector as a tuple of three arrays.  Add a model by writing a
-class with these members and listing it in :data:`SKY_MODELS`.
+class with these members and registering it in :data:`polarsky.registries.SKY_MODELS`.
 
 Models: ``rayleigh`` (single scattering) and ``neutral-points`` (the Berry, Dennis & Lee
 2004 singularity model of the AoLP pattern, with the four neutral points).
@@ -16,7 +16,7 @@ import numpy as np
 
 from .rayleigh import rayleigh_evector
 
-__all__ = ["SKY_MODELS", "RayleighSingleScattering", "get_model"]
+__all__ = ["RayleighSingleScattering", "NeutralPointsBerry2004", "get_model"]
 
 
 class RayleighSingleScattering:
@@ -28,6 +28,7 @@ class RayleighSingleScattering:
     """
 
     name = "rayleigh"
+    title = "single-scattering Rayleigh"
     parameters = ("dolp_max",)
 
     def shape(self, sun, rays, *, up=None):
@@ -84,6 +85,7 @@ class NeutralPointsBerry2004:
     """
 
     name = "neutral-points"
+    title = "neutral-point model, Berry et al. 2004"
     parameters = ("dolp_max",)
 
     def __init__(self, neutral_point_deg: float = 20.0):
@@ -144,14 +146,8 @@ class NeutralPointsBerry2004:
         return e
 
 
-#: Sky models by name.
-SKY_MODELS = {"rayleigh": RayleighSingleScattering, "neutral-points": NeutralPointsBerry2004}
-
-
 def get_model(name: str, **params):
-    """An instance of the sky model ``name`` (extra ``params`` go to its constructor)."""
-    from ..errors import InputError
+    """An instance of the sky model registered as ``name`` (:data:`polarsky.registries.SKY_MODELS`)."""
+    from ..registries import SKY_MODELS
 
-    if name not in SKY_MODELS:
-        raise InputError(f"sky model {name!r} is not known; choose one of {', '.join(SKY_MODELS)}")
-    return SKY_MODELS[name](**params)
+    return SKY_MODELS.get(name)(**params)

@@ -338,7 +338,7 @@ def fit_orientation(brackets: list, model, *, solve=("yaw", "pitch", "roll"), fi
         "correlation": [[float(x) for x in row] for row in corr],
         "ties": [{"a": a, "b": b, "correlation": c} for a, b, c in ties],
         "degenerate": degenerate,
-        "samples": samples,
+        "fit_samples": samples,
         "rms_doubled": float(np.sqrt(np.mean(res.fun ** 2))) if res.fun.size else float("nan"),
         "messages": messages,
         "alternatives": alternatives,

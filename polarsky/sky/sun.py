@@ -1,4 +1,4 @@
-"""Where the sun is: time and place from options or EXIF, position from NREL SPA (pvlib).
+"""Where the sun is: time and place from settings or EXIF, position from NREL SPA (pvlib).
 
 References
 ----------
@@ -21,34 +21,9 @@ import numpy as np
 
 from ..errors import InputError
 
-__all__ = ["parse_when", "sun_position", "read_exif", "resolve_time_place"]
+__all__ = ["sun_position", "resolve_time_place"]
 
 _ISO_OFFSET = re.compile(r"(Z|[+-]\d{2}(:?\d{2})?)$")
-
-
-def parse_when(text: str) -> _dt.datetime:
-    """Parse an ISO 8601 date-time that carries a UTC offset (or ``Z``).
-
-    Raises
-    ------
-    InputError
-        Not ISO 8601, or no UTC offset (a naive time is never taken as UTC silently).
-
-    Examples
-    --------
-    >>> parse_when("2003-10-17T12:30:30-07:00").utcoffset().total_seconds() / 3600
-    -7.0
-    """
-    s = str(text).strip()
-    try:
-        t = _dt.datetime.fromisoformat(s.replace("Z", "+00:00") if s.endswith("Z") else s)
-    except ValueError:
-        raise InputError(f"--when {text!r} is not an ISO 8601 date-time; write e.g. "
-                         "2024-06-21T14:05:00+02:00") from None
-    if t.tzinfo is None or t.utcoffset() is None:
-        raise InputError(f"--when {text!r} has no UTC offset; add one, e.g. {s}+02:00 or {s}Z "
-                         "(a time without offset is not taken as UTC)")
-    return t
 
 
 def sun_position(when: _dt.datetime, latitude_deg: float, longitude_deg: float, *, altitude_m: float = 0.0,
@@ -109,91 +84,6 @@ def sun_position(when: _dt.datetime, latitude_deg: float, longitude_deg: float, 
     }
 
 
-# ---------------------------------------------------------------------------------------
-# EXIF
-def _ratio(v) -> float:
-    """A number from an EXIF rational (exifread Ratio, (num, den) pair or plain number)."""
-    if hasattr(v, "num") and hasattr(v, "den"):
-        return float(v.num) / float(v.den)
-    if isinstance(v, (tuple, list)) and len(v) == 2:
-        return float(v[0]) / float(v[1])
-    return float(v)
-
-
-def _dms(tag) -> float:
-    vals = tag.values
-    return _ratio(vals[0]) + _ratio(vals[1]) / 60.0 + _ratio(vals[2]) / 3600.0
-
-
-def read_exif(path) -> dict:
-    """Time, place and focal length from a file's EXIF (empty dict if none).
-
-    Keys (present only when found): ``when`` (aware datetime from DateTimeOriginal with
-    OffsetTimeOriginal, or GPS date/time stamp in UTC), ``latitude_deg``,
-    ``longitude_deg``, ``altitude_m``, ``focal_mm``, ``focal_35mm``.  A DateTimeOriginal
-    without an offset and without GPS time is reported as ``when_naive`` and not used.
-    """
-    import exifread
-
-    try:
-        with open(path, "rb") as fh:
-            tags = exifread.process_file(fh, details=False)
-    except Exception:  # noqa: BLE001 - unreadable EXIF means no EXIF
-        return {}
-    out: dict = {}
-    dto = tags.get("EXIF DateTimeOriginal")
-    off = tags.get("EXIF OffsetTimeOriginal") or tags.get("EXIF OffsetTime")
-    if dto is not None:
-        try:
-            naive = _dt.datetime.strptime(str(dto.values).strip(), "%Y:%m:%d %H:%M:%S")
-            if off is not None and re.fullmatch(r"[+-]\d{2}:\d{2}", str(off.values).strip()):
-                sign = 1 if str(off.values).strip()[0] == "+" else -1
-                hh, mm = str(off.values).strip()[1:].split(":")
-                tz = _dt.timezone(sign * _dt.timedelta(hours=int(hh), minutes=int(mm)))
-                out["when"] = naive.replace(tzinfo=tz)
-            else:
-                out["when_naive"] = naive.isoformat()
-        except ValueError:
-            pass
-    if "when" not in out and "GPS GPSDate" in tags and "GPS GPSTimeStamp" in tags:
-        try:
-            d = _dt.datetime.strptime(str(tags["GPS GPSDate"].values).strip(), "%Y:%m:%d")
-            h, m, s = (_ratio(x) for x in tags["GPS GPSTimeStamp"].values)
-            out["when"] = (d + _dt.timedelta(hours=h, minutes=m, seconds=s)).replace(tzinfo=_dt.timezone.utc)
-        except (ValueError, IndexError):
-            pass
-    try:
-        if "GPS GPSLatitude" in tags and "GPS GPSLongitude" in tags:
-            lat = _dms(tags["GPS GPSLatitude"])
-            lon = _dms(tags["GPS GPSLongitude"])
-            if str(tags.get("GPS GPSLatitudeRef", "N")).strip().upper().startswith("S"):
-                lat = -lat
-            if str(tags.get("GPS GPSLongitudeRef", "E")).strip().upper().startswith("W"):
-                lon = -lon
-            out["latitude_deg"], out["longitude_deg"] = lat, lon
-        if "GPS GPSAltitude" in tags:
-            alt = _ratio(tags["GPS GPSAltitude"].values[0])
-            ref = tags.get("GPS GPSAltitudeRef")
-            if ref is not None and str(ref.values[0] if isinstance(ref.values, list) else ref.values) == "1":
-                alt = -alt
-            out["altitude_m"] = alt
-    except (ZeroDivisionError, IndexError, AttributeError, ValueError, TypeError):
-        pass
-    if "EXIF FocalLength" in tags:
-        try:
-            out["focal_mm"] = _ratio(tags["EXIF FocalLength"].values[0])
-        except (ZeroDivisionError, IndexError, TypeError, ValueError):
-            pass
-    if "EXIF FocalLengthIn35mmFilm" in tags:
-        try:
-            v = float(_ratio(tags["EXIF FocalLengthIn35mmFilm"].values[0]))
-            if v > 0:
-                out["focal_35mm"] = v
-        except (ZeroDivisionError, IndexError, ValueError, TypeError):
-            pass
-    return out
-
-
 def resolve_time_place(*, when=None, lat=None, lon=None, altitude_m=None, exif: dict | None = None) -> dict:
     """Merge command-line time/place with EXIF; options win.  Say where each came from.
 
@@ -211,7 +101,9 @@ def resolve_time_place(*, when=None, lat=None, lon=None, altitude_m=None, exif: 
     exif = exif or {}
     out: dict = {}
     if when is not None:
-        out["when"] = parse_when(when) if isinstance(when, str) else when
+        from ..options.syntax import parse_when
+
+        out["when"] = parse_when(when)
         out["time_source"] = "option"
     elif "when" in exif:
         out["when"], out["time_source"] = exif["when"], "exif"

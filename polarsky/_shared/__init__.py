@@ -1,0 +1,1 @@
+"""Helpers shared by every layer: strict value checks and the method registry type."""

@@ -1,0 +1,169 @@
+"""One bracket of a batch, on a worker: the same tasks as the commands, into one folder.
+
+:func:`process_bracket` hashes the bracket's inputs and settings, skips it when a complete
+output folder with the same hash exists, and otherwise runs ``stokes`` (and ``advise`` and
+``sky`` when the settings ask for them) into ``DIR/.polarsky-tmp/<name>.<pid>.<random>/``,
+makes the report's thumbnails, writes ``batch.json`` last and renames the folder to
+``DIR/<name>``.  The summary row is read from the results by their documented keys.
+"""
+
+from __future__ import annotations
+
+import dataclasses
+import os
+import shutil
+import time
+import uuid
+from pathlib import Path
+
+from .._version import __version__
+from ..errors import InputError, one_line
+from ..options.syntax import format_angle_list
+from . import state
+from .discover import Bracket
+
+__all__ = ["process_bracket", "process_brackets", "SUMMARY_COLUMNS", "bracket_settings", "make_row"]
+
+#: Columns of summary.csv, in order (angles in the --angles syntax, so a row can be pasted back).
+SUMMARY_COLUMNS = [
+    "name", "status", "error", "frames", "analyzer_angles_deg", "mean_dolp", "best_angle_deg", "reduction_stops",
+    "rms_dolp_residual", "rms_aolp_residual_deg", "time_s", "source", "rule", "warnings",
+]
+
+
+def make_row(bracket: Bracket, **values) -> dict:
+    row = {c: "" for c in SUMMARY_COLUMNS}
+    row.update(name=bracket.name, frames=len(bracket.frames), source=bracket.label, rule=bracket.rule,
+               analyzer_angles_deg=format_angle_list(bracket.angles_deg) if bracket.angles_deg else "")
+    row.update({k: v for k, v in values.items() if v is not None})
+    return row
+
+
+def bracket_settings(settings, bracket: Bracket):
+    """The batch settings with this bracket's angles (its manifest, its file names or the batch's)."""
+    if bracket.rule == "mosaic":
+        return settings
+    if bracket.manifest is not None:
+        read = dataclasses.replace(settings.read, manifest=Path(bracket.manifest), angles=None)
+    else:
+        read = dataclasses.replace(settings.read, manifest=None, angles=tuple(bracket.angles_deg or ()) or None)
+    return dataclasses.replace(settings, read=read)
+
+
+def _settings_key(settings) -> dict:
+    d = dataclasses.asdict(settings)
+    for k in ("given", "cluster", "discovery"):
+        d.pop(k, None)
+    d["report"].pop("embed_images", None)
+    return d
+
+
+def _input_files(bracket: Bracket, settings):
+    files = list(bracket.frames)
+    if bracket.manifest is not None:
+        files.append(bracket.manifest)
+    if settings.estimate.calibration is not None:
+        from ..read.calibration_file import find_calibration
+
+        files.append(find_calibration(settings.estimate.calibration))
+    for region in (settings.advise.region, settings.advise.protect, settings.sky.sky_mask):
+        if region is not None and region.path is not None:
+            files.append(region.path)
+    return files
+
+
+def _reason(exc: BaseException) -> str:
+    if isinstance(exc, InputError):
+        return str(exc)
+    return one_line(f"internal error ({type(exc).__name__}: {exc}); please report it")
+
+
+def _mean(per_channel: dict | None):
+    vals = [v for v in (per_channel or {}).values() if isinstance(v, (int, float))]
+    return round(sum(vals) / len(vals), 6) if vals else None
+
+
+def process_bracket(task: dict) -> dict:
+    """Process one bracket (runs on a dask worker); return its summary row.
+
+    ``task`` holds ``bracket`` (a :class:`Bracket`), ``out_dir``, ``settings``, ``sky``
+    (compare with the sky model) and ``run_id``.  Never raises for a problem of the bracket
+    itself: that is a failed row.
+    """
+    t0 = time.perf_counter()
+    bracket: Bracket = task["bracket"]
+    out_dir = Path(task["out_dir"]).resolve()
+    final = (out_dir / bracket.name).resolve()
+    if final.parent != out_dir or bracket.name.startswith("."):  # never write outside DIR
+        return make_row(bracket, status="failed", error=f"unsafe bracket name {bracket.name!r}")
+    if bracket.problem:
+        return make_row(bracket, status="failed", error=bracket.problem, time_s=round(time.perf_counter() - t0, 3))
+    try:
+        settings = bracket_settings(task["settings"], bracket)
+        key = state.bracket_key(_input_files(bracket, settings),
+                                {"bracket": bracket.as_key(), "settings": _settings_key(settings),
+                                 "sky": bool(task["sky"])}, __version__)
+    except (OSError, InputError) as exc:
+        return make_row(bracket, status="failed", error=f"cannot read the inputs: {_reason(exc)}")
+    marker = state.read_complete(final)
+    if marker is not None and marker.get("key") == key:
+        row = dict(marker["row"])
+        # finished by this same run (a task retried after its worker died): done, not skipped
+        row["status"] = "done" if marker.get("run_id") == task["run_id"] else "skipped"
+        return row
+    tmp = out_dir / state.TMP_DIR / f"{bracket.name}.{os.getpid()}.{uuid.uuid4().hex[:12]}"
+    tmp.mkdir(parents=True)
+    try:
+        row = _run(bracket, settings, tmp, sky=task["sky"], t0=t0)
+        state.write_marker(tmp, key=key, row=row, run_id=task["run_id"])
+        try:
+            state.publish(tmp, final)
+        except OSError:
+            # another process finished the same bracket meanwhile; keep its folder if it matches
+            other = state.read_complete(final)
+            if other is None or other.get("key") != key:
+                raise
+        return row
+    except Exception as exc:  # a failing bracket must not stop the batch
+        return make_row(bracket, status="failed", error=_reason(exc), time_s=round(time.perf_counter() - t0, 3))
+    finally:
+        if tmp.exists():
+            shutil.rmtree(tmp, ignore_errors=True)
+
+
+def _run(bracket: Bracket, settings, tmp: Path, *, sky: bool, t0: float) -> dict:
+    from ..tasks._common import collect_warnings
+    from ..tasks.stokes import run_stokes
+    from ..write.stage import Into
+    from .report import make_thumbnails
+
+    frames = [str(f) for f in bracket.frames]
+    dest = Into(tmp)
+    with collect_warnings(reemit=False) as caught:
+        summary = run_stokes(frames, dest, settings)
+        values = {"mean_dolp": _mean(summary["mean_dolp"])}
+        if settings.advise.region is not None:
+            from ..tasks.advise import run_advise
+
+            advice = run_advise(frames, dest, settings)
+            values["best_angle_deg"] = advice["best_angle_deg"]
+            values["reduction_stops"] = advice["reduction_stops"]
+        if sky:
+            from ..tasks.sky import run_sky
+
+            # a mosaic's sky step reads its Stokes result; a bracket's reads its frames
+            result = run_sky([str(tmp / "stokes.nc")] if bracket.rule == "mosaic" else frames, dest, settings)
+            values["rms_dolp_residual"] = result["rms_dolp_residual"]
+            values["rms_aolp_residual_deg"] = result["rms_aolp_residual_deg"]
+        make_thumbnails(tmp, frames, px=settings.report.thumbnail_px, best_angle_deg=values.get("best_angle_deg"))
+        warn_text = " | ".join(sorted({one_line(m) for m in caught.messages()}))
+    row = make_row(bracket, status="done", warnings=warn_text, **values)
+    if not row["analyzer_angles_deg"]:
+        row["analyzer_angles_deg"] = format_angle_list(summary["analyzer_angles_deg"])
+    row["time_s"] = round(time.perf_counter() - t0, 3)
+    return row
+
+
+def process_brackets(tasks: list) -> list:
+    """Process several brackets in one dask task (rows in the same order)."""
+    return [process_bracket(t) for t in tasks]

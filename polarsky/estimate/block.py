@@ -1,0 +1,227 @@
+"""The Stokes estimate of a block of pixels, from analyzer intensities to every product.
+
+Three steps, each with a numpy reference and a compiled (numba) twin that the tests hold
+equal:
+
+1. *solve*: least-squares Stokes vector, mean intensity and residual sum of squares of each
+   pixel (or, for mosaic fast paths, Stokes vectors computed by the demosaicing kernels);
+2. *finish*: DoLP, AoLP, RMS residual and the per-pixel noise variance (from the residual or
+   the noise model), NaN where a pixel is not valid;
+3. *uncertainty*: the residual-based variance smoothed over 5x5 pixels, then sigma_dolp,
+   sigma_aolp and the bias-corrected DoLP.
+
+The smoothing needs two rows of context above and below a block; the row-block runner
+(:mod:`polarsky.estimate.runner`) supplies them, so products never depend on the block size.
+"""
+
+from __future__ import annotations
+
+from dataclasses import dataclass
+
+import numpy as np
+
+from ..core import stokes as sk
+from ..core.noise import NoiseModel, model_variance
+from ..core.uncertainty import dolp_debiased_plaszczynski2014, sigma_dolp_aolp
+
+__all__ = ["BlockInput", "estimate", "SMOOTH_RADIUS", "PRODUCTS"]
+
+#: Half-size of the window the residual-based variance is averaged over (5x5 pixels).
+SMOOTH_RADIUS = 2
+#: Names of the per-pixel products (``residual`` only with more than 3 analyzers).
+PRODUCTS = ("S0", "S1", "S2", "dolp", "dolp_unbiased", "aolp", "sigma_dolp", "sigma_aolp", "residual", "valid")
+
+
+@dataclass
+class BlockInput:
+    """What the estimate needs for one block (C channels, h rows, w columns).
+
+    Either ``intensities`` with analysis matrices ``w`` (and optionally per-pixel ``solve``
+    matrices), or precomputed Stokes vectors ``s`` with ``mean`` and ``rss`` (mosaic fast
+    paths).
+
+    Attributes
+    ----------
+    invalid : ndarray (C, h, w) bool
+    w : ndarray (C, N, 3)
+        Analysis matrix of each channel (the nominal one with per-pixel calibration).
+    n_analyzers : int
+    full_scale : float
+        Native full scale (DN) of the data, for the noise model.
+    srgb : bool
+        The data were sRGB-encoded (noise model).
+    intensities : ndarray (N, C, h, w) float32, optional
+    weights : ndarray (N,), optional
+        Relative inverse variances of the frames.
+    solve : ndarray (C, 3, N, h, w) float32, optional
+        Per-pixel solve matrices (per-pixel calibration).
+    s, mean, rss : ndarray, optional
+        (C, 3, h, w), (C, h, w), (C, h, w) float32.
+    """
+
+    invalid: np.ndarray
+    w: np.ndarray
+    n_analyzers: int
+    full_scale: float = 65535.0
+    srgb: bool = False
+    intensities: np.ndarray | None = None
+    weights: np.ndarray | None = None
+    solve: np.ndarray | None = None
+    s: np.ndarray | None = None
+    mean: np.ndarray | None = None
+    rss: np.ndarray | None = None
+
+    @property
+    def shape(self) -> tuple:
+        return self.invalid.shape
+
+
+def _solve_numpy(frames, invalid, w, weights):
+    """Step 1, reference: S (3, h, w), mean (h, w), rss (h, w) of one channel."""
+    s = sk.fit_stokes(frames, w, weights=weights)
+    mean = frames.mean(axis=0)
+    n = frames.shape[0]
+    rss = sk.residual_rms(frames, w, s) ** 2 * np.float32(max(n - 3, 1)) if n > 3 else np.zeros_like(mean)
+    return s, mean, rss
+
+
+def _finish_numpy(s, mean, rss, invalid, n, mode, inv_fw, q_var, srgb):
+    """Step 2, reference: dolp, aolp, residual, var (NaN where not valid); NaNs into ``s``."""
+    bad = invalid | ~(s[0] > 0)
+    s[:, bad] = np.nan
+    dolp, aolp = sk.dolp_aolp(s)
+    ms = rss * np.float32(1.0 / max(n - 3, 1))
+    res = np.sqrt(ms)
+    var = ms if mode == 1 else model_variance(mean, np.float32(inv_fw), np.float32(q_var), bool(srgb)).astype(np.float32)
+    for a in (dolp, aolp, res, var):
+        a[bad] = np.nan
+    return dolp, aolp, res, var
+
+
+def smooth_variance(var: np.ndarray) -> np.ndarray:
+    """Mean of the finite values in the 5x5 window around each pixel (NaN stays NaN).
+
+    Sums run over the same window in the same order at every pixel (explicit shifted sums of
+    a reflect-padded array), so a pixel's result does not depend on where a block starts.
+    """
+    r = SMOOTH_RADIUS
+    finite = np.isfinite(var)
+    v0 = np.where(finite, var, np.float32(0)).astype(np.float32)
+    cnt = finite.astype(np.float32)
+    vp = np.pad(v0, r, mode="symmetric")
+    cp = np.pad(cnt, r, mode="symmetric")
+    h, w = var.shape
+    num = np.zeros((h + 2 * r, w), np.float32)
+    den = np.zeros((h + 2 * r, w), np.float32)
+    for dx in range(2 * r + 1):
+        num += vp[:, dx:dx + w]
+        den += cp[:, dx:dx + w]
+    num2 = np.zeros((h, w), np.float32)
+    den2 = np.zeros((h, w), np.float32)
+    for dy in range(2 * r + 1):
+        num2 += num[dy:dy + h]
+        den2 += den[dy:dy + h]
+    with np.errstate(invalid="ignore", divide="ignore"):
+        return np.where(finite, num2 / den2, np.float32(np.nan)).astype(np.float32)
+
+
+def _uncertainty_numpy(s, dolp, var, cov):
+    """Step 3, reference: sigma_dolp, sigma_aolp (deg), dolp_unbiased."""
+    sig_p, sig_a, sig_rice = sigma_dolp_aolp(s, var, cov)
+    unb = dolp_debiased_plaszczynski2014(dolp, sig_rice)
+    bad = ~(s[0] > 0)
+    for a in (sig_p, sig_a, unb):
+        a[bad] = np.nan
+    return sig_p, sig_a, unb
+
+
+def estimate(inp: BlockInput, noise: NoiseModel, *, compiled: bool, smooth: bool = True) -> dict:
+    """Every Stokes product of a block.
+
+    Parameters
+    ----------
+    inp : BlockInput
+    noise : NoiseModel
+    compiled : bool
+        Use the compiled kernels (large frames) instead of the numpy reference.
+    smooth : bool
+        Smooth the residual-based variance over 5x5 pixels (the caller supplies context rows).
+
+    Returns
+    -------
+    dict
+        :data:`PRODUCTS` as float32 (C, h, w) with NaN where not valid (``residual`` only
+        with more than 3 analyzers), and bool ``valid``.
+    """
+    c, h, w = inp.shape
+    n = inp.n_analyzers
+    mode = 1 if noise.resolved_source(n) == "residual" else 0
+    inv_fw, q_var = noise.parameters(inp.full_scale)
+    shape = (c, h, w)
+    out = {k: np.empty(shape, np.float32) for k in PRODUCTS if k != "valid" and (k != "residual" or n > 3)}
+    for ci in range(c):
+        s, var, dolp, aolp, res = _solve_and_finish(inp, ci, n, mode, inv_fw, q_var, compiled)
+        if mode == 1 and smooth:
+            var = smooth_variance(var)
+        wm = inp.w[ci]
+        cov = sk.stokes_covariance(wm, inp.weights)
+        if compiled:
+            from ..core.kernels.dispatch import uncertainty_pass
+
+            c6 = np.array([cov[0, 0], cov[1, 1], cov[2, 2], cov[0, 1], cov[0, 2], cov[1, 2]], np.float32)
+            npx = h * w
+            uncertainty_pass(s.reshape(3, npx), dolp.reshape(npx), np.ascontiguousarray(var).reshape(npx), c6,
+                             out["sigma_dolp"][ci].reshape(npx), out["sigma_aolp"][ci].reshape(npx),
+                             out["dolp_unbiased"][ci].reshape(npx))
+        else:
+            out["sigma_dolp"][ci], out["sigma_aolp"][ci], out["dolp_unbiased"][ci] = _uncertainty_numpy(s, dolp, var, cov)
+        out["S0"][ci], out["S1"][ci], out["S2"][ci] = s
+        out["dolp"][ci], out["aolp"][ci] = dolp, aolp
+        if n > 3:
+            out["residual"][ci] = res
+    out["valid"] = ~inp.invalid & np.isfinite(out["S0"])
+    return out
+
+
+def _solve_and_finish(inp: BlockInput, ci: int, n: int, mode: int, inv_fw: float, q_var: float, compiled: bool):
+    h, w = inp.shape[1:]
+    npx = h * w
+    invalid = inp.invalid[ci]
+    if inp.s is None and inp.solve is None and compiled and n <= _max_frames():
+        from ..core.kernels.dispatch import solve_pass
+
+        frames = np.ascontiguousarray(inp.intensities[:, ci]).reshape(n, npx)
+        s = np.empty((3, npx), np.float32)
+        dolp, aolp, res, var = (np.empty(npx, np.float32) for _ in range(4))
+        wm = inp.w[ci]
+        solve_pass(frames, np.ascontiguousarray(invalid).reshape(npx), sk.solve_matrix(wm, inp.weights).astype(np.float32),
+                   wm.astype(np.float32), mode, inv_fw, q_var, inp.srgb, s, dolp, aolp, res, var)
+        return s.reshape(3, h, w), var.reshape(h, w), dolp.reshape(h, w), aolp.reshape(h, w), res.reshape(h, w)
+    if inp.s is not None:
+        s, mean, rss = inp.s[ci].copy(), inp.mean[ci], inp.rss[ci]
+    elif inp.solve is not None:
+        frames = inp.intensities[:, ci]
+        s = sk.fit_stokes_per_pixel(frames, inp.solve[ci])
+        mean = frames.mean(axis=0)
+        rss = (sk.residual_rms(frames, inp.w[ci], s) ** 2 * np.float32(max(n - 3, 1)) if n > 3
+               else np.zeros_like(mean))
+    else:
+        s, mean, rss = _solve_numpy(inp.intensities[:, ci], invalid, inp.w[ci], inp.weights)
+    if compiled:
+        from ..core.kernels.dispatch import finish_pass
+
+        sf = np.ascontiguousarray(s, dtype=np.float32).reshape(3, npx)
+        dolp, aolp, res, var = (np.empty(npx, np.float32) for _ in range(4))
+        finish_pass(sf, np.ascontiguousarray(mean, np.float32).reshape(npx),
+                    np.ascontiguousarray(rss, np.float32).reshape(npx), np.ascontiguousarray(invalid).reshape(npx),
+                    mode, np.float32(1.0 / max(n - 3, 1)), np.float32(inv_fw), np.float32(q_var), bool(inp.srgb),
+                    n > 3, dolp, aolp, res, var)
+        return sf.reshape(3, h, w), var.reshape(h, w), dolp.reshape(h, w), aolp.reshape(h, w), res.reshape(h, w)
+    dolp, aolp, res, var = _finish_numpy(s, mean, rss, invalid, n, mode, inv_fw, q_var, inp.srgb)
+    return s, var, dolp, aolp, res
+
+
+def _max_frames() -> int:
+    from ..core.kernels.dispatch import MAX_FRAMES
+
+    return MAX_FRAMES

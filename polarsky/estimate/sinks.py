@@ -1,0 +1,126 @@
+"""Where the runner's blocks go: memory, decimated previews for pictures, running statistics.
+
+Every sink has ``write(r0, r1, products, frame0)``: rows ``r0:r1`` of the output grid, the
+block's products (C, h, w) and the first analyzer's intensities (or None).  Nothing a sink
+keeps depends on the block size.
+"""
+
+from __future__ import annotations
+
+import numpy as np
+
+from ..core import stokes as sk
+
+__all__ = ["MemorySink", "PreviewSink", "StatsSink", "preview_step"]
+
+
+class MemorySink:
+    """Full-resolution products in memory (the Python API's Dataset)."""
+
+    def __init__(self, shape, n_channels, names):
+        h, w = shape
+        self.arrays = {n: np.empty((n_channels, h, w), bool if n == "valid" else np.float32) for n in names}
+
+    def write(self, r0, r1, products, frame0):
+        for name, arr in self.arrays.items():
+            arr[:, r0:r1] = products[name]
+
+
+def preview_step(shape, max_side: int = 1024) -> int:
+    """Decimation of the previews pictures are drawn from (at most ``max_side`` a side)."""
+    return max(1, int(np.ceil(max(shape) / max_side)))
+
+
+class PreviewSink:
+    """Every ``step``-th row and column of the products and of the first frame, for pictures."""
+
+    NAMES = ("S0", "S1", "S2", "dolp", "dolp_unbiased", "aolp", "valid", "residual", "sigma_dolp", "sigma_aolp")
+
+    def __init__(self, shape, max_side: int = 1024):
+        self.step = preview_step(shape, max_side)
+        self._parts: dict = {}
+        self.arrays: dict = {}
+
+    def write(self, r0, r1, products, frame0):
+        s = self.step
+        sel = slice((-r0) % s, r1 - r0, s)
+        for name in self.NAMES:
+            if name in products:
+                self._parts.setdefault(name, []).append(products[name][:, sel, ::s].copy())
+        f0 = products["S0"] * np.float32(0.5) if frame0 is None else frame0
+        self._parts.setdefault("frame0", []).append(f0[:, sel, ::s].copy())
+
+    def finish(self) -> dict:
+        self.arrays = {k: np.concatenate(v, axis=1) for k, v in self._parts.items()}
+        return self.arrays
+
+
+def _r(x, nd: int = 6):
+    return None if x is None or not np.isfinite(x) else round(float(x), nd)
+
+
+class StatsSink:
+    """Running statistics over valid pixels (for ``summary.json``).
+
+    The relative residual is sampled at every ``stride``-th pixel of the frame (row-major), so
+    its quantiles do not depend on the block size.
+    """
+
+    def __init__(self, shape, n_channels, max_samples: int = 200_000):
+        c = n_channels
+        self.width = shape[1]
+        self.stride = max(1, int(np.prod(shape)) // max_samples)
+        self.valid = np.zeros(c, np.int64)
+        self.total = 0
+        self.sum_dolp = np.zeros(c)
+        self.sum_dolp_unb = np.zeros(c)
+        self.sum_s = np.zeros((c, 3))
+        self.sum_sigma_aolp = np.zeros(c)
+        self._res: list = []
+
+    def write(self, r0, r1, products, frame0):
+        v = products["valid"]
+        self.total += v[0].size
+        for ci in range(v.shape[0]):
+            m = v[ci]
+            self.valid[ci] += int(m.sum())
+            self.sum_dolp[ci] += float(np.sum(products["dolp"][ci][m], dtype=np.float64))
+            self.sum_dolp_unb[ci] += float(np.sum(products["dolp_unbiased"][ci][m], dtype=np.float64))
+            self.sum_sigma_aolp[ci] += float(np.sum(products["sigma_aolp"][ci][m], dtype=np.float64))
+            for j, name in enumerate(("S0", "S1", "S2")):
+                self.sum_s[ci, j] += float(np.sum(products[name][ci][m], dtype=np.float64))
+        if "residual" in products:
+            idx = np.arange(r0 * self.width, r1 * self.width)
+            take = (idx % self.stride) == 0
+            with np.errstate(invalid="ignore", divide="ignore"):
+                rel = (products["residual"] / products["S0"]).reshape(v.shape[0], -1)[:, take]
+            ok = v.reshape(v.shape[0], -1)[:, take]
+            self._res.append(rel[ok])
+
+    def summary(self, channels) -> dict:
+        n = np.maximum(self.valid, 1)
+
+        def per_channel(sums):
+            return {ch: _r(sums[i] / n[i]) if self.valid[i] else None for i, ch in enumerate(channels)}
+
+        out = {
+            "pixels": int(self.total),
+            "valid_pixels": {ch: int(self.valid[i]) for i, ch in enumerate(channels)},
+            "mean_dolp": per_channel(self.sum_dolp),
+            "mean_dolp_unbiased": per_channel(self.sum_dolp_unb),
+            "mean_sigma_aolp_deg": per_channel(self.sum_sigma_aolp),
+            "scene_dolp": None,
+            "scene_aolp_deg": None,
+            "median_relative_residual": None,
+            "p99_relative_residual": None,
+        }
+        tot = self.sum_s.sum(axis=0)
+        if tot[0] > 0:
+            dolp, aolp = sk.dolp_aolp(tot.reshape(3, 1))
+            out["scene_dolp"] = _r(float(dolp[0]))
+            out["scene_aolp_deg"] = _r(float(aolp[0]))
+        rel = np.concatenate(self._res) if self._res else np.zeros(0)
+        if rel.size:
+            out["median_relative_residual"] = _r(float(np.median(rel)))
+            out["p99_relative_residual"] = _r(float(np.percentile(rel, 99)))
+        return out

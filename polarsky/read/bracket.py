@@ -1,0 +1,244 @@
+"""A bracket: frames of one scene through a filter at several angles, read and made linear.
+
+Frames stay in their native integer form (uint8/uint16, shape (C, H, W)) and become linear
+float32 values row block by row block (:meth:`Bracket.linear_block`), so a large frame never
+exists in float form all at once.  Radiometry follows the project conventions: 8-bit images
+are sRGB-encoded by default, deeper data and raw files linear; values are scaled to [0, 1]
+of full scale and divided by the relative exposure; pixels at or above 98 % of full scale in
+any frame, or at the black level, are not valid.
+"""
+
+from __future__ import annotations
+
+import warnings
+from dataclasses import dataclass, field
+from pathlib import Path
+
+import numpy as np
+
+from ..conventions import SATURATION_FRACTION
+from ..core.stokes import check_angles
+from ..core.transfer import srgb_lut
+from ..errors import InputError, PolarskyWarning
+from .frames import Frame, read_frame
+from .manifest import read_manifest
+from .names import ANGLE_TOKEN_HELP, angle_from_name
+
+__all__ = ["Bracket", "load_bracket", "bracket_files"]
+
+
+@dataclass
+class Bracket:
+    """Frames of one scene through a linear analyzer at several angles.
+
+    Attributes
+    ----------
+    frames : list of Frame
+    angles_deg : ndarray, shape (N,)
+        Analyzer angles in the user's frame (degrees).
+    exposure_scale : ndarray, shape (N,)
+        Relative exposure of each frame (values are divided by it).
+    shifts_px : ndarray, shape (N, 2)
+        ``(dx, dy)`` applied to each frame by alignment (zeros if not aligned).
+    angle_source : str
+        ``"option"``, ``"manifest"`` or ``"file names"``.
+    exposure_source : str
+        ``"none"``, ``"manifest"`` or ``"exif"``.
+    coverage : ndarray (H, W) bool or None
+        Pixels inside every aligned frame (None: all).
+    """
+
+    frames: list
+    angles_deg: np.ndarray
+    exposure_scale: np.ndarray
+    shifts_px: np.ndarray
+    angle_source: str = "option"
+    exposure_source: str = "none"
+    coverage: np.ndarray | None = field(default=None, repr=False)
+
+    @property
+    def n(self) -> int:
+        return len(self.frames)
+
+    @property
+    def shape(self) -> tuple:
+        return self.frames[0].data.shape[1:]
+
+    @property
+    def n_channels(self) -> int:
+        return self.frames[0].data.shape[0]
+
+    @property
+    def channels(self) -> list:
+        return ["L"] if self.n_channels == 1 else ["R", "G", "B"]
+
+    @property
+    def encodings(self) -> list:
+        return [f.encoding for f in self.frames]
+
+    @property
+    def paths(self) -> list:
+        return [f.path for f in self.frames]
+
+    @property
+    def full_scale(self) -> float:
+        return max(fr.full_scale for fr in self.frames)
+
+    @property
+    def srgb(self) -> bool:
+        return any(e == "srgb" for e in self.encodings)
+
+    def linear_block(self, r0: int, r1: int, out=None, *, count_rows=None):
+        """Linear, exposure-normalized float32 values of rows ``r0:r1``.
+
+        ``count_rows`` ``(c0, c1)`` limits the saturated/black counts to those rows (the
+        block's own rows when it was read with context rows).
+
+        Returns
+        -------
+        values : ndarray, shape (N, C, r1-r0, W), float32
+        invalid : ndarray, shape (C, r1-r0, W), bool
+            Saturated (>= 98 % full scale) or black in any frame, or outside a shifted frame.
+        counts : ndarray, shape (N, 2), int
+            Saturated and black pixel counts per frame within the block.
+        """
+        n, c = self.n, self.n_channels
+        w = self.shape[1]
+        h = r1 - r0
+        if out is None:
+            out = np.empty((n, c, h, w), dtype=np.float32)
+        invalid = np.zeros((c, h, w), dtype=bool)
+        counts = np.zeros((n, 2), dtype=np.int64)
+        for k, fr in enumerate(self.frames):
+            raw = fr.data[:, r0:r1]
+            sat = raw >= SATURATION_FRACTION * fr.full_scale
+            blk = raw == 0
+            c0, c1 = (0, h) if count_rows is None else (count_rows[0] - r0, count_rows[1] - r0)
+            counts[k, 0] = int(sat[:, c0:c1].sum())
+            counts[k, 1] = int(blk[:, c0:c1].sum())
+            invalid |= sat
+            invalid |= blk
+            if fr.encoding == "srgb":
+                np.take(srgb_lut(int(fr.full_scale) + 1), raw, out=out[k])
+            else:
+                np.multiply(raw, np.float32(1.0 / fr.full_scale), out=out[k], casting="unsafe")
+            scale = self.exposure_scale[k]
+            if scale != 1.0:
+                out[k] *= np.float32(1.0 / scale)
+        if self.coverage is not None:
+            invalid |= ~self.coverage[None, r0:r1]
+        return out, invalid, counts
+
+
+def bracket_files(frames=(), read=None):
+    """Frame files, analyzer angles (degrees), exposures and their sources, without decoding.
+
+    The same files and manifest give the same bracket in every command and in the batch.
+
+    Returns
+    -------
+    files : list of Path
+    angles : list of float
+    exposures_s : list of float or None, or None
+    angle_source : str
+    """
+    from ..options.settings import ReadSettings
+
+    read = read or ReadSettings()
+    files = [Path(f) for f in frames]
+    if read.manifest is not None:
+        if read.angles is not None:
+            raise InputError("give either --angles or --manifest, not both")
+        man = read_manifest(read.manifest)
+        m_files, m_angles, m_exp = list(man.files), list(man.angles_deg), list(man.exposures_s)
+        if files:
+            lookup = {p.resolve(): i for i, p in enumerate(m_files)}
+            order = []
+            for f in files:
+                if f.resolve() not in lookup:
+                    raise InputError(f"frame {f} is not listed in manifest {read.manifest}; add it or leave the frames "
+                                     "out to use the manifest's list")
+                order.append(lookup[f.resolve()])
+            m_files = [m_files[i] for i in order]
+            m_angles = [m_angles[i] for i in order]
+            m_exp = [m_exp[i] for i in order]
+        return m_files, m_angles, (m_exp if any(e is not None for e in m_exp) else None), "manifest"
+    if not files:
+        raise InputError("no frames given; name the frame files or give --manifest FILE.csv")
+    if read.angles is not None:
+        if len(read.angles) != len(files):
+            raise InputError(f"--angles gives {len(read.angles)} angle(s) for {len(files)} frame(s); give one angle per "
+                             "frame, in frame order")
+        return files, list(read.angles), None, "option"
+    angles = []
+    for f in files:
+        a = angle_from_name(f)
+        if a is None:
+            raise InputError(f"cannot tell the analyzer angle of {f.name}: give --angles 0,45,90,135, a --manifest, "
+                             f"or put {ANGLE_TOKEN_HELP}")
+        angles.append(a)
+    return files, angles, None, "file names"
+
+
+def load_bracket(frames=(), read=None) -> Bracket:
+    """Read the frames of a bracket and work out their analyzer angles and exposures.
+
+    Parameters
+    ----------
+    frames : sequence of path-like
+        Frame files in order (may be empty with a manifest).
+    read : ReadSettings, optional
+        Angles, manifest, transfer and pixel limit (:class:`polarsky.options.settings.ReadSettings`).
+
+    Returns
+    -------
+    Bracket
+
+    Raises
+    ------
+    InputError
+        For any problem the user can fix (see the message).
+    """
+    from ..options.settings import ReadSettings
+
+    read = read or ReadSettings()
+    files, angles, explicit, source = bracket_files(frames, read)
+    if len(files) < 3:
+        raise InputError(f"{len(files)} frame(s) given; a linear Stokes estimate needs at least 3 frames at distinct "
+                         "analyzer angles")
+    angles = np.asarray(angles, dtype=np.float64)
+    check_angles(angles)
+    loaded = [read_frame(f, transfer=read.transfer, max_pixels=read.max_pixels) for f in files]
+    _check_same_layout(loaded)
+    for fr in loaded:
+        if (fr.data >= SATURATION_FRACTION * fr.full_scale).all():
+            raise InputError(f"frame {fr.path} is saturated everywhere (>= 98% of full scale); shorten the exposure "
+                             "and shoot it again")
+    exp, exposure_source = None, "none"
+    if explicit is not None:
+        if any(e is None for e in explicit):
+            raise InputError("exposure_s is given for some frames but not all; give it for every frame or for none")
+        exp, exposure_source = np.asarray(explicit, dtype=np.float64), "manifest"
+    elif all(fr.exposure is not None for fr in loaded):
+        exp, exposure_source = np.asarray([fr.exposure for fr in loaded], dtype=np.float64), "exif"
+    elif any(fr.exposure is not None for fr in loaded):
+        warnings.warn("EXIF exposure is present in some frames only; frames were not normalized for exposure",
+                      PolarskyWarning, stacklevel=2)
+    scale = np.ones(len(loaded)) if exp is None else exp / exp[0]
+    if exp is not None and np.allclose(scale, 1.0):
+        scale = np.ones(len(loaded))
+    return Bracket(frames=loaded, angles_deg=angles, exposure_scale=scale, shifts_px=np.zeros((len(loaded), 2)),
+                   angle_source=source, exposure_source=exposure_source)
+
+
+def _check_same_layout(loaded) -> None:
+    first = loaded[0]
+    for fr in loaded[1:]:
+        if fr.data.shape[1:] != first.data.shape[1:]:
+            h0, w0 = first.data.shape[1:]
+            h1, w1 = fr.data.shape[1:]
+            raise InputError(f"frame {fr.path.name} is {w1}x{h1} but {first.path.name} is {w0}x{h0}; all frames of a "
+                             "bracket must have the same size")
+        if fr.data.shape[0] != first.data.shape[0]:
+            raise InputError(f"frame {fr.path.name} has {fr.data.shape[0]} channel(s) but {first.path.name} has "
+                             f"{first.data.shape[0]}; use all-grey or all-RGB frames")

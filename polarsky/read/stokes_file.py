@@ -1,0 +1,116 @@
+"""Reading a Stokes result written by ``polarsky stokes`` (``stokes.nc``).
+
+:func:`open_stokes` gives the xarray Dataset of the Python API; :func:`read_stokes` gives
+plain numpy products (faster, no xarray) for the sky comparison and the workbench.
+"""
+
+from __future__ import annotations
+
+import json
+from pathlib import Path
+
+import numpy as np
+
+from ..errors import InputError
+
+__all__ = ["open_stokes", "read_stokes", "products_from_dataset", "decode_attrs"]
+
+_JSON_ATTRS = ("analysis_matrix", "calibration", "inputs", "analyzer_angles_deg", "transfer", "shifts_px",
+               "exposure_scale")
+
+
+def decode_attrs(attrs: dict) -> dict:
+    """Attributes with their JSON text decoded (lists, objects)."""
+    out = {}
+    for k, v in attrs.items():
+        if isinstance(v, bytes):
+            v = v.decode()
+        if isinstance(v, np.ndarray) and v.size == 1:
+            v = v.item()
+        if isinstance(v, np.generic):
+            v = v.item()
+        if isinstance(v, str) and v[:1] in "[{":
+            try:
+                v = json.loads(v)
+            except ValueError:
+                pass
+        out[k] = v
+    return out
+
+
+def open_stokes(path):
+    """The ``xarray.Dataset`` of a ``stokes.nc`` (loaded into memory, file closed)."""
+    import xarray as xr
+
+    _check(path)
+    try:
+        with xr.open_dataset(path, engine="netcdf4") as ds:
+            return ds.load()
+    except Exception as exc:  # noqa: BLE001 - any decoding failure is a bad file
+        raise InputError(f"{path} cannot be read as a Stokes result ({type(exc).__name__}); give a stokes.nc written "
+                         "by 'polarsky stokes'") from None
+
+
+def _check(path):
+    p = Path(path)
+    if not p.is_file():
+        raise InputError(f"Stokes result {p} does not exist; give a stokes.nc written by 'polarsky stokes'")
+
+
+def read_stokes(path) -> dict:
+    """numpy products of a ``stokes.nc``.
+
+    Returns
+    -------
+    dict
+        ``S`` (3, C, h, w) float32, ``dolp``, ``aolp`` (C, h, w) float32, ``valid`` (C, h, w)
+        bool, other maps present (``sigma_dolp``, ``sigma_aolp``, ``dolp_unbiased``,
+        ``residual``), ``channels`` and ``attrs`` (decoded).
+    """
+    import netCDF4
+
+    _check(path)
+    try:
+        with netCDF4.Dataset(path, "r") as f:
+            var = f.variables
+            miss = [k for k in ("S0", "S1", "S2") if k not in var]
+            if miss:
+                raise InputError(f"{path} lacks {', '.join(miss)}; give a stokes.nc written by 'polarsky stokes'")
+            arr = {}
+            for k, v in var.items():
+                if tuple(v.dimensions) == ("channel", "y", "x"):
+                    v.set_auto_maskandscale(False)
+                    arr[k] = np.asarray(v[...])
+            channels = [str(c) for c in var["channel"][...]] if "channel" in var else [
+                f"c{i}" for i in range(arr["S0"].shape[0])]
+            attrs = decode_attrs({k: f.getncattr(k) for k in f.ncattrs()})
+    except InputError:
+        raise
+    except Exception as exc:  # noqa: BLE001 - any decoding failure is a bad file
+        raise InputError(f"{path} cannot be read as a Stokes result ({type(exc).__name__}); give a stokes.nc written "
+                         "by 'polarsky stokes'") from None
+    return _products(arr, channels, attrs)
+
+
+def products_from_dataset(ds) -> dict:
+    """numpy products (as :func:`read_stokes`) of a Stokes Dataset."""
+    need = [k for k in ("S0", "S1", "S2") if k not in ds]
+    if need:
+        raise InputError(f"the Stokes dataset lacks {', '.join(need)}; give a result of 'polarsky stokes'")
+    arr = {k: np.asarray(ds[k].transpose("channel", "y", "x").values) for k in ds.data_vars
+           if set(ds[k].dims) == {"channel", "y", "x"}}
+    channels = [str(c) for c in ds["channel"].values]
+    return _products(arr, channels, decode_attrs(dict(ds.attrs)))
+
+
+def _products(arr: dict, channels, attrs) -> dict:
+    s = np.stack([arr.pop("S0"), arr.pop("S1"), arr.pop("S2")]).astype(np.float32)
+    if "dolp" not in arr or "aolp" not in arr:
+        from ..core.stokes import dolp_aolp
+
+        arr["dolp"], arr["aolp"] = dolp_aolp(s)
+    valid = arr.pop("valid", None)
+    valid = (np.isfinite(s).all(axis=0) & (s[0] > 0)) if valid is None else valid.astype(bool)
+    out = {k: np.asarray(v, dtype=np.float32) for k, v in arr.items()}
+    out.update(S=s, valid=valid, channels=channels, attrs=attrs)
+    return out

@@ -1,0 +1,33 @@
+"""The registries of every family of methods, and the command line's choices.
+
+Declared here (light: no numerical imports) and loaded on first use; see
+:class:`polarsky._shared.registry.Registry`.
+"""
+
+from __future__ import annotations
+
+from ._shared.registry import Registry
+
+__all__ = ["DEMOSAIC_METHODS", "LENS_MODELS", "SKY_MODELS"]
+
+#: Decoding of a polarization mosaic (``--demosaic``): entries are
+#: :class:`polarsky.mosaic.methods.DemosaicMethod`.
+DEMOSAIC_METHODS = Registry("demosaic method", "--demosaic", {
+    "superpixel": "polarsky.mosaic.methods:SUPERPIXEL",
+    "bilinear": "polarsky.mosaic.methods:BILINEAR",
+    "newton": "polarsky.mosaic.methods:NEWTON",
+})
+
+#: Lens projections (``--lens``): entries are :class:`polarsky.geometry.camera.Lens` classes.
+LENS_MODELS = Registry("lens model", "--lens", {
+    "pinhole": "polarsky.geometry.camera:PinholeLens",
+    "fisheye-equidistant": "polarsky.geometry.camera:FisheyeEquidistantLens",
+    "fisheye-equisolid": "polarsky.geometry.camera:FisheyeEquisolidLens",
+})
+
+#: Clear-sky polarization models (``--model``): entries are model classes of
+#: :mod:`polarsky.sky.models`.
+SKY_MODELS = Registry("sky model", "--model", {
+    "rayleigh": "polarsky.sky.models:RayleighSingleScattering",
+    "neutral-points": "polarsky.sky.models:NeutralPointsBerry2004",
+})

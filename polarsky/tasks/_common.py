@@ -1,0 +1,176 @@
+"""What every task does first: settings, the frames' source, the warnings of the run.
+
+:func:`open_source` reads the input (a bracket of frames or polarization-mosaic frames) and
+returns the estimate's source with the facts a summary records; every task that estimates
+Stokes products starts from it, so a bracket means the same thing in every command.
+"""
+
+from __future__ import annotations
+
+import contextlib
+import time
+import warnings
+from dataclasses import dataclass, field
+
+import numpy as np
+
+from ..errors import PolarskyWarning
+
+__all__ = ["resolve_settings", "open_source", "Opened", "collect_warnings"]
+
+
+def resolve_settings(settings=None, options=None):
+    """A :class:`~polarsky.options.settings.Settings` from a settings object and/or option keywords."""
+    from ..options.settings import Settings
+
+    if settings is None:
+        return Settings.from_options(options or {})
+    return settings.replace(options) if options else settings
+
+
+@dataclass
+class Opened:
+    """An input ready for the row-block runner.
+
+    Attributes
+    ----------
+    source : BracketSource or MosaicSource
+    noise : NoiseModel
+    facts : dict
+        Summary keys known before the estimate (:mod:`polarsky.write.summary`).
+    bracket : Bracket or None
+        The bracket (brackets only).
+    inputs : list of str
+    timing : dict
+    """
+
+    source: object
+    noise: object
+    facts: dict
+    bracket: object = None
+    inputs: list = field(default_factory=list)
+    timing: dict = field(default_factory=dict)
+
+
+def load_calibration(value):
+    """The Calibration of a setting: None, a Calibration object, or a file/folder to read."""
+    from ..estimate.calibration import Calibration
+    from ..read.calibration_file import read_calibration
+
+    if value is None or isinstance(value, Calibration):
+        return value
+    return read_calibration(value)
+
+
+def open_source(frames, settings, *, compiled: bool | None = None) -> Opened:
+    """Read a bracket or mosaic frames as ``settings`` say, ready to estimate.
+
+    ``compiled`` forces the compiled kernels on or off (default: by the input's size).
+    """
+    from ..core.noise import NoiseModel
+    settings.check_frame_options()
+    est = settings.estimate
+    noise = NoiseModel(gain_e_per_dn=est.gain_e_per_dn, read_noise_dn=est.read_noise_dn, source=est.noise)
+    cal = load_calibration(est.calibration)
+    if settings.mosaic.mosaic is not None:
+        return _open_mosaic(frames, settings, cal, noise, compiled)
+    return _open_bracket(frames, settings, cal, noise, compiled)
+
+
+def _open_bracket(frames, settings, cal, noise, compiled) -> Opened:
+    from ..core.stokes import check_angles
+    from ..estimate.calibration import analysis_matrices
+    from ..estimate.sources import BracketSource
+    from ..read.bracket import load_bracket
+    from ..write.summary import calibration_facts
+
+    est = settings.estimate
+    t0 = time.perf_counter()
+    bracket = load_bracket(frames, settings.read)
+    t_read = time.perf_counter() - t0
+    shifts = None
+    if est.align:
+        from ..estimate.align import align_bracket
+
+        shifts = align_bracket(bracket).round(3).tolist()
+    t_align = time.perf_counter() - t0 - t_read
+    w, _ = analysis_matrices(bracket.angles_deg, bracket.n_channels, extinction=est.extinction,
+                             angle_offset=est.angle_offset, calibration=cal)
+    h, wd = bracket.shape
+    facts = {
+        "source_kind": "bracket", "inputs": [str(p) for p in bracket.paths], "frames": bracket.n,
+        "analyzer_angles_deg": bracket.angles_deg.tolist(), "angle_source": bracket.angle_source,
+        "width_px": int(wd), "height_px": int(h), "output_pixel_size_px": 1, "channels": bracket.channels,
+        "transfer": bracket.encodings, "polarizer": "front", "exposure_scale": bracket.exposure_scale.tolist(),
+        "exposure_source": bracket.exposure_source,
+        "condition_number": round(check_angles(bracket.angles_deg, warn_condition=np.inf), 4),
+        "extinction_ratio": est.extinction, "analysis_matrix": np.round(w, 8).tolist(),
+        "calibration": calibration_facts(cal), "aligned": bool(est.align), "shifts_px": shifts,
+    }
+    return Opened(source=BracketSource(bracket, w, compiled=compiled), noise=noise, facts=facts, bracket=bracket,
+                  inputs=facts["inputs"], timing={"read": t_read, "align": t_align})
+
+
+def _open_mosaic(frames, settings, cal, noise, compiled) -> Opened:
+    from ..estimate.sources import MosaicSource
+    from ..errors import InputError
+    from ..mosaic.layout import check_frame_shape, parse_mosaic
+    from ..mosaic.methods import validate_method
+    from ..read.mosaic_frames import read_mosaic_stack
+    from ..write.summary import calibration_facts
+
+    rd, mo = settings.read, settings.mosaic
+    layout = parse_mosaic(mo.mosaic, mo.mosaic_colour)
+    method = validate_method(mo.demosaic)
+    t0 = time.perf_counter()
+    stack = read_mosaic_stack(list(frames), bit_depth=rd.bit_depth, black_level=rd.black_level, transfer=rd.transfer)
+    check_frame_shape(stack.values.shape, layout, source=str(stack.info["files"][0]))
+    hs, ws = stack.values.shape
+    if stack.values.size > rd.max_pixels:
+        raise InputError(f"mosaic frames are {ws}x{hs} = {stack.values.size} pixels, above --max-pixels {rd.max_pixels}; "
+                         "raise --max-pixels")
+    t_read = time.perf_counter() - t0
+    info = stack.info
+    k = method.scale
+    source = MosaicSource(stack.values, stack.invalid, layout, method, cal, full_scale=info["white_level"],
+                          srgb=info["transfer"] == "srgb", compiled=compiled)
+    facts = {
+        "source_kind": "polarization mosaic", "inputs": info["files"], "frames": info["n_frames"],
+        "analyzer_angles_deg": list(layout.angles_deg), "angle_source": "mosaic cell",
+        "width_px": int(ws // k), "height_px": int(hs // k), "sensor_width_px": int(ws), "sensor_height_px": int(hs),
+        "output_pixel_size_px": int(k), "channels": layout.channels, "transfer": [info["transfer"]] * info["n_frames"],
+        "polarizer": "sensor", "mosaic": layout.text, "mosaic_colour": layout.colour, "demosaic": method.name,
+        "demosaic_reference": method.reference, "bit_depth": info["bit_depth"], "black_level": info["black_level"],
+        "exposure_source": "none", "condition_number": round(_cond(source.w[0]), 4), "extinction_ratio": None,
+        "analysis_matrix": np.round(source.w, 8).tolist(), "calibration": calibration_facts(cal, per_pixel=source.per_pixel),
+        "aligned": False, "saturated_px": info["saturated_px"], "black_px": info["black_px"],
+    }
+    return Opened(source=source, noise=noise, facts=facts, inputs=list(info["files"]), timing={"read": t_read})
+
+
+def _cond(w) -> float:
+    sv = np.linalg.svd(np.asarray(w, dtype=np.float64), compute_uv=False)
+    return float(sv[0] / sv[-1])
+
+
+class RunWarnings:
+    """The warnings recorded so far in a run (see :func:`collect_warnings`)."""
+
+    def __init__(self, caught):
+        self._caught = caught
+
+    def messages(self) -> list:
+        """Texts of the :class:`PolarskyWarning` messages so far, once each, in order."""
+        return list(dict.fromkeys(str(w.message) for w in self._caught if issubclass(w.category, PolarskyWarning)))
+
+
+@contextlib.contextmanager
+def collect_warnings(*, reemit: bool = True):
+    """Record the run's warnings (yields a :class:`RunWarnings`) and, with ``reemit``, hand
+    them on to the caller's warning handlers at the end, so the command line still prints them."""
+    with warnings.catch_warnings(record=True) as caught:
+        warnings.simplefilter("always", PolarskyWarning)
+        yield RunWarnings(caught)
+    if reemit:
+        for w in caught:
+            warnings.warn_explicit(w.message, w.category, w.filename, w.lineno)

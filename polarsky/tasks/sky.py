@@ -1,0 +1,138 @@
+"""``polarsky sky``: compare a sky bracket with the clear-sky model and write the results.
+
+Writes into ``out_dir``: ``sky.json`` (the returned dict, docs/schemas/sky.schema.json),
+``sky.nc`` (model, residual and geometry maps) and the PNG pictures.
+"""
+
+from __future__ import annotations
+
+from pathlib import Path
+
+import numpy as np
+
+from ..conventions import SUN_CAUTION
+from ..errors import InputError
+from ._common import collect_warnings, resolve_settings
+
+__all__ = ["run_sky", "prepare_sky", "stokes_products", "SUN_BELOW_HORIZON_DEG"]
+
+#: Sun elevations (apparent, degrees) below which a clear-sky comparison is refused: the
+#: single-scattering model describes the daylit sky (civil twilight ends at -6 deg).
+SUN_BELOW_HORIZON_DEG = -6.0
+
+
+def stokes_products(frames, settings) -> dict:
+    """numpy Stokes products of the input: one ``stokes.nc``, a bracket, or mosaic frames."""
+    from ..read.stokes_file import read_stokes
+
+    frames = [Path(f) for f in frames]
+    if len(frames) == 1 and frames[0].suffix.lower() == ".nc":
+        return read_stokes(frames[0])
+    from ..estimate.runner import run_blocks
+    from ..estimate.sinks import MemorySink
+    from ._common import open_source
+
+    op = open_source(frames, settings)
+    src = op.source
+    mem = MemorySink(src.shape, len(src.channels), ("S0", "S1", "S2", "dolp", "aolp", "valid"))
+    run_blocks(src, op.noise, [mem])
+    a = mem.arrays
+    return {"S": np.stack([a["S0"], a["S1"], a["S2"]]), "dolp": a["dolp"], "aolp": a["aolp"], "valid": a["valid"],
+            "channels": src.channels, "inputs": op.inputs,
+            "attrs": {k: op.facts[k] for k in ("polarizer", "analysis_matrix", "analyzer_angles_deg")}}
+
+
+def prepare_sky(frames, settings, *, stokes=None):
+    """Stokes products, the sky geometry and the facts of time, place and lens.
+
+    Returns
+    -------
+    products : dict
+    geom : SkyGeometry
+    info : dict
+    """
+    from ..geometry.camera import make_lens
+    from ..read.exif import read_metadata
+    from ..sky.skymap import SkyGeometry
+    from ..sky.sun import resolve_time_place, sun_position
+
+    g = settings.geometry
+    products = stokes if stokes is not None else stokes_products(frames, settings)
+    first = Path(frames[0]) if frames else None
+    if first is None and settings.read.manifest is not None:
+        from ..read.manifest import read_manifest
+
+        first = read_manifest(settings.read.manifest).files[0]
+    exif = read_metadata(first) if first is not None and first.suffix.lower() != ".nc" else {}
+    tp = resolve_time_place(when=g.when, lat=g.lat, lon=g.lon, altitude_m=g.altitude_m, exif=exif)
+    sun = sun_position(tp["when"], tp["latitude_deg"], tp["longitude_deg"], altitude_m=tp["altitude_m"],
+                       pressure_hpa=g.pressure_hpa, temperature_c=g.temperature_c, delta_t_s=g.delta_t_s)
+    if sun["elevation_deg"] < SUN_BELOW_HORIZON_DEG:
+        raise InputError(f"the sun is {-sun['elevation_deg']:.1f} deg below the horizon at {tp['when'].isoformat()} "
+                         f"({tp['latitude_deg']:.4f}, {tp['longitude_deg']:.4f}); the clear-sky model needs a daylit "
+                         "sky: check --when (and its UTC offset), --lat and --lon")
+    c, h, w = products["dolp"].shape
+    focal_px, focal_mm, focal_source = g.focal_px, g.focal_mm, "option"
+    if g.lens == "pinhole" and g.hfov_deg is None and focal_px is None and focal_mm is None:
+        if "focal_mm" in exif and g.sensor_width_mm is not None:
+            focal_mm, focal_source = exif["focal_mm"], "exif FocalLength"
+        elif "focal_35mm" in exif:
+            # 35 mm equivalent focal length refers to the 43.27 mm diagonal (CIPA DC-008)
+            focal_px, focal_source = exif["focal_35mm"] * np.hypot(w, h) / 43.2666, "exif FocalLengthIn35mmFilm"
+    lens = make_lens(g.lens, w, h, hfov_deg=g.hfov_deg, focal_px=focal_px, focal_mm=focal_mm,
+                     sensor_width_mm=g.sensor_width_mm, distortion=g.distortion, fov_deg=g.fov_deg,
+                     circle_centre_px=g.circle_centre_px, circle_radius_px=g.circle_radius_px)
+    polarizer = g.polarizer or str(products.get("attrs", {}).get("polarizer") or "front")
+    if polarizer not in ("front", "sensor"):
+        polarizer = "front"
+    geom = SkyGeometry(lens, g.yaw_deg, g.pitch_deg, g.roll_deg, sun["azimuth_deg"], sun["elevation_deg"], polarizer)
+    info = {"when": tp["when"].isoformat(), "time_source": tp["time_source"], "latitude_deg": tp["latitude_deg"],
+            "longitude_deg": tp["longitude_deg"], "altitude_m": tp["altitude_m"], "place_source": tp["place_source"],
+            "sun": sun, "lens": lens.describe(), "focal_source": focal_source}
+    return products, geom, info
+
+
+def run_sky(frames=(), out_dir=None, settings=None, *, stokes=None, max_fit_samples: int = 20_000, seed: int = 0,
+            **options) -> dict:
+    """Compare a sky bracket (or a ``stokes.nc``, or mosaic frames) with the clear-sky model.
+
+    Parameters
+    ----------
+    frames : list of path
+    out_dir : path
+        Output folder (published whole).
+    settings : polarsky.Settings, optional
+    stokes : dict, optional
+        Products already in memory (see :func:`stokes_products`).
+    **options
+        Any setting by name: time, place, lens and orientation (``when``, ``lat``, ``lon``,
+        ``hfov_deg``, ``yaw_deg``, ...), the sky comparison (``model``, ``sky_mask``,
+        ``solve``, ...) and the bracket options.
+
+    Returns
+    -------
+    dict
+        The ``sky.json`` content.
+    """
+    from ..sky.models import get_model
+    from ..write.jsonio import jsonable, write_json
+    from ..write.stage import check_destination, open_stage
+    from .sky_compare import compare
+
+    settings = resolve_settings(settings, options)
+    check_destination(out_dir)
+    sk = settings.sky
+    model = get_model(sk.model, **({"neutral_point_deg": sk.neutral_point_deg} if sk.model == "neutral-points" else {}))
+    with collect_warnings() as caught:
+        products, geom, info = prepare_sky(frames, settings, stokes=stokes)
+        inputs = products.get("inputs") or [str(f) for f in frames]
+        with open_stage(out_dir, command="sky", inputs=inputs) as stage:
+            before = set(stage.outputs())
+            result = compare(products, geom, info, stage.dir, settings=settings, model=model,
+                             max_fit_samples=max_fit_samples, seed=seed, inputs=inputs)
+            result["warnings"] = caught.messages()
+            result["outputs"] = sorted(set(stage.outputs()) - before | {"sky.json"})
+            result = jsonable(result)
+            write_json(stage.path("sky.json"), result)
+            stage.publish()
+    return result

@@ -1,0 +1,228 @@
+"""``polarsky stokes``: a bracket or mosaic frames -> Stokes maps, summary and pictures.
+
+Both kinds of input run through the same layers: :func:`polarsky.tasks._common.open_source`
+reads them, the row-block runner estimates every product, the NetCDF writer, the preview and
+the statistics sinks take the blocks, and one summary builder writes ``summary.json``.
+"""
+
+from __future__ import annotations
+
+import time
+import warnings
+
+from ..errors import PolarskyWarning
+from ._common import collect_warnings, load_calibration, open_source, resolve_settings
+
+__all__ = ["stokes_from_files", "stokes_from_mosaic_values", "run_stokes", "RESIDUAL_WARNING"]
+
+#: Median relative fit residual above which the frames are said to disagree.
+RESIDUAL_WARNING = 0.03
+
+
+def _names(n_analyzers: int) -> list:
+    from ..conventions import VARIABLES
+
+    return [n for n in VARIABLES if n != "residual" or n_analyzers > 3]
+
+
+def stokes_from_files(frames=(), settings=None, *, progress: bool = False, **options):
+    """The Stokes ``xarray.Dataset`` of a bracket or of mosaic frames (the Python API).
+
+    Parameters
+    ----------
+    frames : sequence of path-like
+        Frame files (may be empty with a manifest).
+    settings : polarsky.Settings, optional
+    progress : bool
+    **options
+        Any setting by name (``angles``, ``manifest``, ``transfer``, ``extinction``,
+        ``angle_offset``, ``align``, ``calibration``, ``mosaic``, ``demosaic``, ...; see
+        ``docs/glossary.md``), mapped onto ``settings``.
+
+    Returns
+    -------
+    xarray.Dataset
+        Dims (channel, y, x); the variables of :data:`polarsky.conventions.VARIABLES`.
+
+    Examples
+    --------
+    >>> import polarsky
+    >>> ds = polarsky.stokes_from_files(["a_000deg.png", "a_045deg.png", "a_090deg.png"])  # doctest: +SKIP
+    >>> ds["dolp"].sel(channel="L").plot()  # doctest: +SKIP
+    """
+    from ..estimate.runner import run_blocks
+    from ..estimate.sinks import MemorySink
+    from ..write.dataset import stokes_dataset
+
+    settings = resolve_settings(settings, options)
+    with collect_warnings():
+        op = open_source(frames, settings)
+        src = op.source
+        mem = MemorySink(src.shape, len(src.channels), _names(src.n_analyzers))
+        info = run_blocks(src, op.noise, [mem], progress=progress)
+        facts = _facts_after(op, info)
+    return stokes_dataset(mem.arrays, channels=src.channels, attrs=facts)
+
+
+def _facts_after(op, info) -> dict:
+    facts = dict(op.facts)
+    src = op.source
+    if hasattr(src, "counts"):
+        facts["saturated_px"] = src.counts[:, 0].tolist()
+        facts["black_px"] = src.counts[:, 1].tolist()
+        bracket = op.bracket
+        for k, fr in enumerate(bracket.frames):
+            sat, blk = src.counts[k]
+            if sat:
+                warnings.warn(f"{sat} pixel values saturated (>= 98% of full scale) in {fr.path.name} were masked",
+                              PolarskyWarning, stacklevel=3)
+            if blk:
+                warnings.warn(f"{blk} pixel values at the black level in {fr.path.name} were masked",
+                              PolarskyWarning, stacklevel=3)
+    facts["uncertainty_source"] = info["noise_source"]
+    return facts
+
+
+def run_stokes(frames=(), out_dir=None, settings=None, *, progress: bool = False, **options) -> dict:
+    """``polarsky stokes``: write ``stokes.nc``, ``summary.json`` and pictures into ``out_dir``.
+
+    Parameters
+    ----------
+    frames : sequence of path-like
+    out_dir : path-like
+        Output folder; it holds the complete result of this run or, on failure, what it held
+        before.
+    settings : polarsky.Settings, optional
+    progress : bool
+    **options
+        Any setting by name, as for :func:`stokes_from_files` (``pictures=False`` skips the
+        PNG maps).
+
+    Returns
+    -------
+    dict
+        The summary (also written to ``summary.json``; docs/schemas/summary.schema.json).
+    """
+    from ..estimate.runner import run_blocks
+    from ..estimate.sinks import PreviewSink, StatsSink
+    from ..write.jsonio import write_json
+    from ..write.netcdf import StokesWriter
+    from ..write.stage import check_destination, open_stage
+    from ..write.summary import build_summary
+
+    settings = resolve_settings(settings, options)
+    t_start = time.perf_counter()
+    check_destination(out_dir)
+    with collect_warnings() as caught:
+        op = open_source(frames, settings)
+        src = op.source
+        with open_stage(out_dir, command="stokes", inputs=op.inputs) as stage:
+            before = set(stage.outputs())
+            writer = StokesWriter(stage.path("stokes.nc"), shape=src.shape, channels=src.channels,
+                                  names=_names(src.n_analyzers), attrs={})
+            preview = PreviewSink(src.shape)
+            stats = StatsSink(src.shape, len(src.channels))
+            try:
+                info = run_blocks(src, op.noise, [_Timed(writer), preview, stats], progress=progress)
+                facts = _facts_after(op, info)
+                t1 = time.perf_counter()
+                writer.set_attrs(facts)
+                writer.commit()
+            except BaseException:
+                writer.abort()
+                raise
+            t_nc = time.perf_counter() - t1 + writer.seconds
+            t2 = time.perf_counter()
+            if settings.output.pictures:
+                from ..write.pictures.maps import stokes_pictures
+
+                stokes_pictures(preview.finish(), stage.dir, channels=src.channels, step=preview.step,
+                                polarizer=facts["polarizer"])
+            t_pics = time.perf_counter() - t2
+            stat = stats.summary(src.channels)
+            med = stat.get("median_relative_residual")
+            if med is not None and med > RESIDUAL_WARNING:
+                hint = "" if settings.estimate.align or facts["source_kind"] != "bracket" else ", or try --align"
+                warnings.warn(f"the analyzer intensities disagree with the filter model: median fit residual "
+                              f"{med * 100:.1f}% of S0 (99th percentile {stat['p99_relative_residual'] * 100:.1f}%); "
+                              f"see residual.png for motion, a passing cloud or exposure drift{hint}",
+                              PolarskyWarning, stacklevel=2)
+            timing = {"read": op.timing.get("read"), "align": op.timing.get("align"), "estimate": info["estimate_s"],
+                      "write_netcdf": t_nc, "write_pictures": t_pics}
+            timing = {k: (None if v is None else round(v, 4)) for k, v in timing.items()}
+            timing["total"] = round(time.perf_counter() - t_start, 4)
+            summary = build_summary(**facts, **stat, warnings=caught.messages(), timing_s=timing,
+                                    outputs=sorted(set(stage.outputs()) - before | {"summary.json"}))
+            write_json(stage.path("summary.json"), summary)
+            stage.publish()
+    return summary
+
+
+class _Timed:
+    """A sink that writes blocks to a :class:`~polarsky.write.netcdf.StokesWriter` and times it."""
+
+    def __init__(self, writer):
+        self.writer = writer
+        writer.seconds = 0.0
+
+    def write(self, r0, r1, products, frame0):
+        t = time.perf_counter()
+        self.writer.write(r0, r1, products)
+        self.writer.seconds += time.perf_counter() - t
+
+
+def stokes_from_mosaic_values(values, invalid=None, settings=None, *, full_scale: float = 65535.0, srgb: bool = False,
+                              **options):
+    """The Stokes Dataset of a polarization-mosaic frame already in memory (linear values).
+
+    Parameters
+    ----------
+    values : ndarray, shape (H, W)
+        Linear mosaic values ([0, 1] of full scale).
+    invalid : ndarray, shape (H, W), bool, optional
+        Raw pixels not to use.
+    settings : polarsky.Settings, optional
+    full_scale : float
+        Native full scale (DN) of the sensor, for the noise model.
+    srgb : bool
+        The values were sRGB-encoded before linearisation (noise model).
+    **options
+        Settings by name; ``mosaic`` (the cell) is required, ``mosaic_colour``,
+        ``demosaic``, ``calibration``, the noise options apply.
+
+    Returns
+    -------
+    xarray.Dataset
+    """
+    import numpy as np
+
+    from ..core.noise import NoiseModel
+    from ..errors import InputError
+    from ..estimate.runner import run_blocks
+    from ..estimate.sinks import MemorySink
+    from ..estimate.sources import MosaicSource
+    from ..mosaic.layout import check_frame_shape, parse_mosaic
+    from ..mosaic.methods import validate_method
+    from ..write.dataset import stokes_dataset
+    from ..write.summary import calibration_facts
+
+    settings = resolve_settings(settings, options)
+    mo, est = settings.mosaic, settings.estimate
+    if mo.mosaic is None:
+        raise InputError("give mosaic=\"a,b;c,d\": the micro-polarizer angles of the 2x2 cell")
+    layout = parse_mosaic(mo.mosaic, mo.mosaic_colour)
+    method = validate_method(mo.demosaic)
+    values = np.asarray(values, dtype=np.float32)
+    check_frame_shape(values.shape, layout)
+    cal = load_calibration(est.calibration)
+    k = method.scale
+    src = MosaicSource(values, invalid, layout, method, cal, full_scale=full_scale, srgb=srgb)
+    noise = NoiseModel(gain_e_per_dn=est.gain_e_per_dn, read_noise_dn=est.read_noise_dn, source=est.noise)
+    mem = MemorySink(src.shape, len(src.channels), _names(4))
+    info = run_blocks(src, noise, [mem])
+    attrs = {"source_kind": "polarization mosaic", "mosaic": layout.text, "mosaic_colour": layout.colour,
+             "demosaic": method.name, "demosaic_reference": method.reference, "polarizer": "sensor",
+             "analyzer_angles_deg": list(layout.angles_deg), "analysis_matrix": np.round(src.w, 8).tolist(),
+             "calibration": calibration_facts(cal, per_pixel=src.per_pixel), "output_pixel_size_px": k,
+             "uncertainty_source": info["noise_source"]}
+    return stokes_dataset(mem.arrays, channels=src.channels, attrs=attrs)

@@ -1,0 +1,267 @@
+"""Publishing an output folder whole: all of one run or none of it.
+
+:class:`OutputStage` writes every output of a run into a hidden staging folder beside
+``--out`` and, when all are complete, swaps it in by renaming: the earlier result stays in
+place until the new one is complete, and files of the earlier result that this run does not
+write disappear with it.  While a run writes to a folder it holds a lock, so a second run
+into the same folder stops with a message instead of mixing files.  Staging folders left by
+runs that were killed are removed by the next run into the same folder.
+
+A folder is replaced only if it is new, empty, or was written by polarsky (it holds the
+marker ``.polarsky-run.json``); a folder holding the run's own inputs is refused.
+"""
+
+from __future__ import annotations
+
+import datetime as _dt
+import errno
+import hashlib
+import json
+import os
+import shutil
+import tempfile
+import time
+import uuid
+from pathlib import Path
+
+from .._version import __version__
+from ..errors import InputError
+
+__all__ = ["OutputStage", "Into", "open_stage", "check_destination", "MARKER", "check_out_dir", "folder_lock",
+           "swap_in", "FolderLock", "listed_files"]
+
+#: Hidden file that marks a folder written by polarsky (and lists the run's outputs).
+MARKER = ".polarsky-run.json"
+_STAGING = "polarsky-staging"
+_OLD = "polarsky-old"
+
+
+def check_out_dir(out_dir, *, inputs=(), option: str = "--out") -> Path:
+    """The output folder as a Path, after the checks every command makes.
+
+    Raises
+    ------
+    InputError
+        Empty path, an existing file, a folder holding files polarsky did not write, or a
+        folder that holds one of the run's inputs.
+    """
+    if out_dir is None or str(out_dir).strip() == "":
+        raise InputError(f"{option} is empty; give the folder for the outputs, e.g. {option} out/")
+    out = Path(out_dir)
+    if out.exists() and not out.is_dir():
+        raise InputError(f"{option} {out} exists and is not a folder; give a folder path")
+    target = out.resolve()
+    for f in inputs:
+        try:
+            Path(f).resolve().relative_to(target)
+        except ValueError:
+            continue
+        raise InputError(f"{option} {out} holds the input {f}; outputs replace the whole folder, so choose another "
+                         "output folder")
+    if out.is_dir() and not (out / MARKER).is_file():
+        foreign = [p.name for p in out.iterdir()]
+        if foreign:
+            raise InputError(f"{option} {out} already holds files polarsky did not write ({', '.join(sorted(foreign)[:3])}"
+                             f"{' ...' if len(foreign) > 3 else ''}); give a new or empty folder")
+    return out
+
+
+class FolderLock:
+    """An exclusive, non-waiting lock on a folder path (``flock`` on a file in the temp folder).
+
+    The lock file lives in the system's temporary folder, named after the folder's absolute
+    path, so it survives the folder being swapped and leaves nothing beside the outputs.
+    """
+
+    def __init__(self, folder: Path, *, what: str = "--out"):
+        self.folder = Path(folder)
+        self.what = what
+        key = hashlib.sha256(str(self.folder.resolve()).encode("utf-8", "surrogateescape")).hexdigest()[:32]
+        locks = Path(tempfile.gettempdir()) / "polarsky-locks"
+        locks.mkdir(exist_ok=True)
+        self.path = locks / f"{key}.lock"
+        self._fh = None
+
+    def acquire(self) -> None:
+        import fcntl
+
+        self._fh = open(self.path, "a+")
+        try:
+            fcntl.flock(self._fh, fcntl.LOCK_EX | fcntl.LOCK_NB)
+        except OSError:
+            self._fh.close()
+            self._fh = None
+            raise InputError(f"another polarsky run is writing to {self.folder}; wait for it to finish or choose "
+                             f"another {self.what}") from None
+
+    def release(self) -> None:
+        if self._fh is not None:
+            self._fh.close()
+            self._fh = None
+
+    def __enter__(self):
+        self.acquire()
+        return self
+
+    def __exit__(self, *exc):
+        self.release()
+        return False
+
+
+def folder_lock(folder, *, what: str = "--out") -> FolderLock:
+    """:class:`FolderLock` on ``folder`` (use as a context manager)."""
+    return FolderLock(folder, what=what)
+
+
+def _hidden(out: Path, kind: str) -> Path:
+    return out.parent / f".{out.name}.{kind}-{os.getpid()}-{uuid.uuid4().hex[:8]}"
+
+
+def listed_files(folder: Path) -> list:
+    """Files below ``folder`` (relative names, sorted), hidden files and folders left out."""
+    return sorted(p.relative_to(folder).as_posix() for p in folder.rglob("*")
+                  if p.is_file() and not any(part.startswith(".") for part in p.relative_to(folder).parts))
+
+
+def clean_leftovers(out: Path) -> None:
+    """Remove staging and old folders of ``out`` left by killed runs (call with the lock held)."""
+    if not out.parent.is_dir():
+        return
+    prefix = f".{out.name}."
+    for p in out.parent.iterdir():
+        if p.name.startswith(prefix) and (f".{_STAGING}-" in p.name[len(out.name):] or
+                                          f".{_OLD}-" in p.name[len(out.name):]):
+            shutil.rmtree(p, ignore_errors=True)
+
+
+def swap_in(staged: Path, out: Path) -> None:
+    """Put the complete folder ``staged`` in place of ``out`` by renames (old removed last)."""
+    old = None
+    if out.exists():
+        old = _hidden(out, _OLD)
+        os.rename(out, old)
+    os.rename(staged, out)
+    if old is not None:
+        shutil.rmtree(old, ignore_errors=True)
+
+
+class OutputStage:
+    """Write a run's outputs into a staging folder; :meth:`publish` swaps it in whole.
+
+    Parameters
+    ----------
+    out_dir : path-like
+        The output folder (``--out``).
+    command : str
+        The command writing it (recorded in the marker).
+    inputs : sequence of path-like
+        The run's inputs (never inside ``out_dir``).
+
+    Use as a context manager: on an exception the staging folder is removed and the earlier
+    result stays as it was.
+    """
+
+    def __init__(self, out_dir, *, command: str = "", inputs=()):
+        self.out_dir = check_out_dir(out_dir, inputs=inputs)
+        self.command = command
+        self.lock = FolderLock(self.out_dir)
+        self.lock.acquire()
+        try:
+            clean_leftovers(self.out_dir)
+            try:
+                self.out_dir.parent.mkdir(parents=True, exist_ok=True)
+                self.dir = _hidden(self.out_dir, _STAGING)
+                self.dir.mkdir()
+            except OSError as exc:
+                raise _os_error(exc, self.out_dir) from None
+        except BaseException:
+            self.lock.release()
+            raise
+        self.t0 = time.time()
+
+    def path(self, name: str) -> Path:
+        """Where to write output ``name`` (inside the staging folder)."""
+        return self.dir / name
+
+    def outputs(self) -> list:
+        """Names of the files written so far (relative, sorted; hidden files left out)."""
+        return listed_files(self.dir)
+
+    def publish(self) -> list:
+        """Swap the complete staging folder in as ``out_dir``; returns the output paths."""
+        names = self.outputs()
+        marker = {"command": self.command, "software_version": __version__, "outputs": names,
+                  "created": _dt.datetime.now(_dt.timezone.utc).isoformat(timespec="seconds")}
+        try:
+            (self.dir / MARKER).write_text(json.dumps(marker, indent=1) + "\n", encoding="utf-8")
+            swap_in(self.dir, self.out_dir)
+        except OSError as exc:
+            self.discard()
+            raise _os_error(exc, self.out_dir) from None
+        finally:
+            self.lock.release()
+        return [self.out_dir / n for n in names]
+
+    def discard(self) -> None:
+        shutil.rmtree(self.dir, ignore_errors=True)
+        self.lock.release()
+
+    def __enter__(self):
+        return self
+
+    def __exit__(self, exc_type, exc, tb):
+        if exc_type is not None:
+            self.discard()
+        return False
+
+
+def _os_error(exc: OSError, out: Path) -> InputError:
+    if exc.errno == errno.ENOSPC:
+        return InputError(f"no space left on the device of {out}; free some space or choose another --out")
+    if exc.errno in (errno.EACCES, errno.EPERM, errno.EROFS):
+        return InputError(f"cannot write to {out} ({exc.strerror}); choose a folder you can write to")
+    return InputError(f"cannot write to {out} ({exc.strerror or exc})")
+
+
+class Into:
+    """A destination inside a folder someone else publishes (a batch bracket's staging folder).
+
+    Tasks given an ``Into`` write their files into ``folder`` next to those of other tasks and
+    leave publishing to the caller.
+    """
+
+    def __init__(self, folder):
+        self.dir = Path(folder)
+        self.out_dir = self.dir
+        self.dir.mkdir(parents=True, exist_ok=True)
+
+    def path(self, name: str) -> Path:
+        return self.dir / name
+
+    def outputs(self) -> list:
+        return listed_files(self.dir)
+
+    def publish(self) -> list:
+        return [self.dir / n for n in self.outputs()]
+
+    def discard(self) -> None:
+        pass
+
+    def __enter__(self):
+        return self
+
+    def __exit__(self, *exc):
+        return False
+
+
+def open_stage(out, *, command: str, inputs=()):
+    """An :class:`OutputStage` for a folder path, or ``out`` itself when it is an :class:`Into`."""
+    if isinstance(out, Into):
+        return out
+    return OutputStage(out, command=command, inputs=inputs)
+
+
+def check_destination(out, *, inputs=()) -> None:
+    """:func:`check_out_dir` for folder paths (an :class:`Into` needs no check)."""
+    if not isinstance(out, Into):
+        check_out_dir(out, inputs=inputs)
