@@ -111,6 +111,18 @@ def paths(value, what, base=None, spec=None):
     return tuple(path(v, what, base) for v in items)
 
 
+def variables(value, what, base=None, spec=None):
+    """Names of Stokes variables (``S0,S1,S2,valid``), each known, in the data model's order."""
+    from ..conventions import VARIABLES
+
+    items = [str(v).strip() for v in (value if isinstance(value, (list, tuple)) else str(value).split(","))]
+    bad = [v for v in items if v not in VARIABLES]
+    if bad or not items:
+        raise InputError(f"{what} {value!r}: {', '.join(bad) or 'nothing'} not known; give names among "
+                         f"{','.join(VARIABLES)}")
+    return tuple(v for v in VARIABLES if v in items)
+
+
 def angles(value, what, base=None, spec=None):
     return syntax.parse_angle_list(value, what)
 

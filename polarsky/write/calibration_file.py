@@ -42,7 +42,7 @@ def write_calibration(path, cal: Calibration, *, inputs=(), method: str = "") ->
     with NetCDFFile(path, dims, attrs) as f:
         for name, d, a in arrays:
             units = "degree" if name.endswith("_deg") else "1"
-            f.variable(name, d, a.dtype.str[1:], units=units, long_name=name.replace("_", " "), data=a)
+            f.variable(name, d, a.dtype, units=units, long_name=name.replace("_", " "), data=a)
     return path
 
 

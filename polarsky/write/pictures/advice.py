@@ -8,7 +8,7 @@ import numpy as np
 
 from ...core.stokes import intensity_at
 from ...palette import AXIS_LABEL_X, AXIS_LABEL_Y, COLOURS
-from .maps import checker, draw_axis, new_figure, save_figure
+from .figure import checker, draw_axis, new_figure, save_figure
 
 __all__ = ["advice_pictures"]
 

@@ -14,7 +14,7 @@ import numpy as np
 
 from ...palette import AXIS_LABEL_X, AXIS_LABEL_Y, COLOURS
 from ...sky.fit import MASK_REASONS
-from .maps import checker, new_figure, save_figure
+from .figure import checker, new_figure, save_figure
 
 __all__ = ["save_sky_pictures"]
 
