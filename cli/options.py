@@ -24,13 +24,16 @@ def _click_option(f: dataclasses.Field):
     flag = "--" + f.name.replace("_", "-")
     kw = {"default": None, "help": md["help"], "show_default": False}
     if f.default is not dataclasses.MISSING and f.default not in (None, (), ""):
-        kw["help"] += f" [default: {f.default}]" if not isinstance(f.default, bool) else ""
+        shown = ",".join(f"{v:g}" for v in f.default) if isinstance(f.default, tuple) else f.default
+        kw["help"] += f" [default: {shown}]" if not isinstance(f.default, bool) else ""
     if md["parse"].__name__ == "boolean":
         return click.option(f"{flag}/--no-{flag[2:]}", f.name, default=None, help=md["help"])
     if md["choices"]:
         kw["type"] = click.Choice(list(choices_of(f)), case_sensitive=False)
     elif md["metavar"]:
         kw["metavar"] = md["metavar"]
+    if md.get("flag_value"):  # the option alone means its flag value
+        kw.update(is_flag=False, flag_value=md["flag_value"])
     if md["multiple"]:
         kw["multiple"] = True
         kw["default"] = ()
