@@ -42,6 +42,8 @@ class Opened:
         The bracket (brackets only).
     inputs : list of str
     timing : dict
+    calibration : Calibration or None
+        The calibration applied (``--calibration``).
     """
 
     source: object
@@ -50,6 +52,7 @@ class Opened:
     bracket: object = None
     inputs: list = field(default_factory=list)
     timing: dict = field(default_factory=dict)
+    calibration: object = None
 
 
 def open_source(frames, settings, *, compiled: bool | None = None) -> Opened:
@@ -65,8 +68,16 @@ def open_source(frames, settings, *, compiled: bool | None = None) -> Opened:
     noise = NoiseModel(gain_e_per_dn=est.gain_e_per_dn, read_noise_dn=est.read_noise_dn, source=est.noise)
     cal = None if est.calibration is None else read_calibration(est.calibration)
     if settings.mosaic.mosaic is not None:
-        return _open_mosaic(frames, settings, cal, noise, compiled)
-    return _open_bracket(frames, settings, cal, noise, compiled)
+        if cal is not None and cal.kind == "ring":
+            from ..errors import InputError
+
+            raise InputError(f"--calibration {cal.source} is a filter-ring calibration; a mosaic camera has no filter "
+                             "ring: drop --calibration or give a flat or sky calibration of the camera")
+        opened = _open_mosaic(frames, settings, cal, noise, compiled)
+    else:
+        opened = _open_bracket(frames, settings, cal, noise, compiled)
+    opened.calibration = cal
+    return opened
 
 
 def _open_bracket(frames, settings, cal, noise, compiled) -> Opened:
