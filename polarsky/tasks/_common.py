@@ -16,7 +16,7 @@ import numpy as np
 
 from ..errors import PolarskyWarning
 
-__all__ = ["resolve_settings", "open_source", "Opened", "collect_warnings"]
+__all__ = ["resolve_settings", "open_source", "Opened", "collect_warnings", "publish_result"]
 
 
 def resolve_settings(settings=None, options=None):
@@ -177,3 +177,16 @@ def collect_warnings(*, reemit: bool = True):
     if reemit:
         for w in caught:
             warnings.warn_explicit(w.message, w.category, w.filename, w.lineno)
+
+
+def publish_result(out_dir, result: dict, json_name: str, *, command: str, draw=None) -> dict:
+    """Write ``result`` as ``json_name`` into ``out_dir`` with the files ``draw(folder)`` makes
+    (it returns their names), published whole; ``result["outputs"]`` lists them, JSON first."""
+    from ..write.jsonio import write_json
+    from ..write.stage import OutputStage
+
+    with OutputStage(out_dir, command=command) as stage:
+        result["outputs"] = [json_name] + (list(draw(stage.dir)) if draw is not None else [])
+        write_json(stage.path(json_name), result)
+        stage.publish()
+    return result
