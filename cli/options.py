@@ -16,7 +16,7 @@ from polarsky.conventions import ANGLE_HELP
 from polarsky.options.settings import GROUPS, choices_of
 
 __all__ = ["settings_options", "frames_argument", "out_option", "json_option", "pop_settings", "frames_command",
-           "ANGLE_HELP"]
+           "emit", "ANGLE_HELP"]
 
 
 def _click_option(f: dataclasses.Field):
@@ -71,6 +71,17 @@ def out_option(*, required: bool, help: str):
 def json_option(fn):
     """``--json``: print one JSON object on stdout and nothing else there."""
     return click.option("--json", "as_json", is_flag=True, help="Print the result as one JSON object on stdout.")(fn)
+
+
+def emit(result: dict, as_json: bool, show) -> int:
+    """Print ``result`` as one JSON object (``--json``) or in words (``show(result)``); exit status 0."""
+    if as_json:
+        from polarsky.write.jsonio import print_json
+
+        print_json(result)
+    else:
+        show(result)
+    return 0
 
 
 def frames_command(name: str, *, groups, short_help: str, out_help: str, out_required: bool = True, exclude=(),
