@@ -225,13 +225,13 @@ def incidence(value, what, base=None, spec=None):
 def refractive_index(value, what, base=None, spec=None):
     v = _num(value, what)
     if v <= 0:
-        raise InputError(f"{what} {value!r} must be a positive number: the refractive index of the reflecting medium "
+        raise InputError(f"{what} {v:g} must be a positive number: the refractive index of the reflecting medium "
                          "relative to air, e.g. 1.333 for water, 1.5 for glass")
     if v <= 1:
-        raise InputError(f"{what} {value!r} is not above 1: a surface reflects glare toward the camera only from a "
+        raise InputError(f"{what} {v:g} is not above 1: a surface reflects glare toward the camera only from a "
                          "denser medium (water 1.333, glass 1.5); give the index relative to air")
     if v > 5:
-        raise InputError(f"{what} {value!r} is above 5; dielectric surfaces lie between 1.3 and 2.5 (metals are not "
+        raise InputError(f"{what} {v:g} is above 5; dielectric surfaces lie between 1.3 and 2.5 (metals are not "
                          "described by a real index)")
     return v
 
