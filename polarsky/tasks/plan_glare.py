@@ -36,7 +36,7 @@ def plan_glare(settings=None, **options) -> dict:
     from ..conventions import FIELD_CAUTION
     from ..core.stokes import diattenuation_from_extinction
     from ..errors import InputError
-    from ..plan.glare import glare_plan, glare_sweep
+    from ..plan.glare import MOVE_CAUTION, glare_plan, glare_sweep
     from ..plan.result import plan_glare_result
     from ..read.calibration_file import read_calibration
     from ..write.summary import calibration_facts
@@ -59,7 +59,7 @@ def plan_glare(settings=None, **options) -> dict:
             angles = np.unique(np.append(angles, numbers["brewster_deg"]))
         sweep = glare_sweep(surface["index"], angles, diattenuation=d)
     return plan_glare_result(numbers, surface=surface, calibration=calibration_facts(cal), ring=ring, sweep=sweep,
-                             caution=FIELD_CAUTION)
+                             caution=f"{FIELD_CAUTION} Note: {MOVE_CAUTION}.")
 
 
 def run_plan_glare(out_dir=None, settings=None, **options) -> dict:
