@@ -33,7 +33,8 @@ def _axis(best, reading, r, how: str, prefix: str = "") -> None:
         click.echo(prefix + ring_line(reading, r))
 
 
-@command.command(name="sky", epilog=PLAN_ANGLE_HELP + " Keep the sun out of the frame and never look at it through "
+@command.command(name="sky", short_help="How much a filter darkens the sky of a planned frame, and how evenly.",
+                 epilog=PLAN_ANGLE_HELP + " Keep the sun out of the frame and never look at it through "
                  "a viewfinder.")
 @settings_options(*SKY_GROUPS, exclude=SKY_EXCLUDE)
 @out_option(required=False, help="Folder for plan_sky.json and the pictures (and the sweep plots); replaced whole.")
@@ -46,7 +47,9 @@ def sky_command(out_dir, as_json, **kw):
     across the frame (the darkest band lies 90 deg from the sun, so wide lenses darken one side
     more). The time, place, lens and camera options are those of 'polarsky sky'; the sky part
     is the sky above --min-elevation-deg, farther than --sun-mask-deg from the sun, inside
-    --sky-mask; --region is a part of the frame to darken, as in 'polarsky advise'.
+    --sky-mask; --region is a part of the frame to darken, as in 'polarsky advise'. There is
+    no frame to read EXIF from: --when, --lat and --lon are required, and --polarizer is front
+    unless given.
     """
     from polarsky.tasks.plan_sky import run_plan_sky
 
@@ -117,7 +120,8 @@ def _print_sweep(sw: dict, kind: str) -> None:
     click.echo(sw["summary_text"])
 
 
-@command.command(name="glare", epilog=PLAN_ANGLE_HELP)
+@command.command(name="glare", short_help="How much glare off water or glass a filter removes, and where to stand.",
+                 epilog=PLAN_ANGLE_HELP)
 @settings_options(*GLARE_GROUPS, exclude=GLARE_EXCLUDE)
 @out_option(required=False, help="Folder for plan_glare.json and plan_glare_sweep.png; replaced whole.")
 @json_option
