@@ -31,7 +31,7 @@ def command(frames, out_dir, as_json, **kw):
 def _print(res: dict) -> None:
     click.echo(f"reference region {res['region']} ({res['region_pixels']} pixels): DoLP {res['region_dolp']:.3f}, "
                f"AoLP {res['region_aolp_ring_deg']:.2f} deg on the ring's scale (source {res['source_aolp_deg']:g} deg)")
-    click.echo(f"ring offset {res['ring_offset_deg']:+.2f} ± {res['ring_offset_sigma_deg']:.2f} deg: add it to a ring "
+    click.echo(f"ring offset {res['ring_offset_deg']:+.2f} ± {res['ring_offset_sigma_deg']:.2g} deg: add it to a ring "
                "reading to get the true transmission axis")
     for note in res["notes"]:
         click.echo("note: " + note)

@@ -172,7 +172,7 @@ def ring_line(reading, result: dict) -> str:
     sig = result["ring_offset_sigma_deg"]
     source = (result.get("calibration") or {}).get("file") or "the calibration"
     return (f"on your filter ring: set it to {reading:.1f} (ring offset {result['ring_offset_deg']:+.2f}"
-            f"{'' if sig is None else f' ± {sig:.2f}'} deg from {source}; {REMOUNT_NOTE})")
+            f"{'' if sig is None else f' ± {sig:.2g}'} deg from {source}; {REMOUNT_NOTE})")
 
 
 #: Keys of ``calibration.json`` of a ring calibration (``polarsky calibrate ring --json``).

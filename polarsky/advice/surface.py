@@ -18,7 +18,10 @@ from __future__ import annotations
 from ..core.fresnel import brewster_angle_deg, incidence_from_dolp
 from ..errors import InputError
 
-__all__ = ["resolve_surface", "surface_estimate", "tilt_text", "SURFACE_ESTIMATE_KEYS"]
+__all__ = ["resolve_surface", "surface_estimate", "tilt_text", "SURFACE_ESTIMATE_KEYS", "MOVE_CAUTION"]
+
+MOVE_CAUTION = ("a plan that says 'step closer' or 'lower the camera' to reach Brewster's angle does not know the edge "
+                "of the quay: move only where it is safe to stand")
 
 #: Keys of ``surface_estimate`` (advice key ``surface_estimate``), all always present.
 SURFACE_ESTIMATE_KEYS = ("surface", "index", "index_source", "region_dolp", "incidence_solutions_deg", "brewster_deg",
@@ -142,5 +145,5 @@ def surface_estimate(region_dolp: float, surface: dict, *, pitch_deg=None, regio
             notes.append(f"the region's polarization lies {off:+.0f} deg from the image horizontal: the surface is not "
                          "level in the image (camera roll, tilted glass) or the light is not mainly its reflection, "
                          "so treat the angles above with care")
-    out["notes"] = notes
+    out["notes"] = notes + [MOVE_CAUTION]
     return out

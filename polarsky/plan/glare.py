@@ -24,15 +24,11 @@ import numpy as np
 
 from ..core.fresnel import brewster_angle_deg, fresnel_reflectance, incidence_from_dolp
 
-__all__ = ["glare_plan", "glare_sweep", "stops_removed", "GLARE_ANGLE_NOTE", "MOVE_CAUTION", "GLARE_NUMBER_KEYS",
-           "SWEEP_ROW_KEYS"]
+__all__ = ["glare_plan", "glare_sweep", "stops_removed", "GLARE_ANGLE_NOTE", "GLARE_NUMBER_KEYS", "SWEEP_ROW_KEYS"]
 
 GLARE_ANGLE_NOTE = ("best_angle_deg is the filter's transmission axis in the image for a level surface and a camera "
                     "rolled by roll_deg (0 = level): the axis lies in the plane of incidence, the plane that holds your "
                     "line of sight and the surface normal; for a tilted surface turn it with that plane")
-
-MOVE_CAUTION = ("a plan that says 'step closer' or 'lower the camera' to reach Brewster's angle does not know the edge "
-                "of the quay: move only where it is safe to stand")
 
 #: Keys of :func:`glare_plan`.
 GLARE_NUMBER_KEYS = ("index", "incidence_deg", "roll_deg", "extinction_ratio", "rs", "rp", "reflectance",

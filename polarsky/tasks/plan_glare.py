@@ -32,11 +32,11 @@ def plan_glare(settings=None, **options) -> dict:
     import numpy as np
 
     from ..advice.ring import ring_of_calibration
-    from ..advice.surface import resolve_surface
+    from ..advice.surface import MOVE_CAUTION, resolve_surface
     from ..conventions import FIELD_CAUTION
     from ..core.stokes import diattenuation_from_extinction
     from ..errors import InputError
-    from ..plan.glare import MOVE_CAUTION, glare_plan, glare_sweep
+    from ..plan.glare import glare_plan, glare_sweep
     from ..plan.result import plan_glare_result
     from ..read.calibration_file import read_calibration
     from ..write.summary import calibration_facts
