@@ -8,7 +8,7 @@ plot, published whole.
 
 from __future__ import annotations
 
-from ._common import resolve_settings
+from ._common import load_calibration, resolve_settings
 
 __all__ = ["run_plan_glare", "plan_glare"]
 
@@ -38,7 +38,6 @@ def plan_glare(settings=None, **options) -> dict:
     from ..errors import InputError
     from ..plan.glare import glare_plan, glare_sweep
     from ..plan.result import plan_glare_result
-    from ..read.calibration_file import read_calibration
     from ..write.summary import calibration_facts
 
     settings = resolve_settings(settings, options)
@@ -47,7 +46,7 @@ def plan_glare(settings=None, **options) -> dict:
     if gl.incidence_deg is None:
         raise InputError("--incidence-deg is required: the angle between your line of sight and the surface normal, "
                          "degrees (0 = straight at the surface, 90 = grazing)")
-    cal = None if est.calibration is None else read_calibration(est.calibration)
+    cal = load_calibration(est.calibration)
     ring = ring_of_calibration(cal)
     d = 1.0 if est.extinction is None else diattenuation_from_extinction(est.extinction)
     numbers = glare_plan(surface["index"], gl.incidence_deg, diattenuation=d, extinction=est.extinction,

@@ -10,7 +10,7 @@ from __future__ import annotations
 
 from dataclasses import dataclass
 
-from ._common import resolve_settings
+from ._common import load_calibration, resolve_settings
 
 __all__ = ["plan_sky", "run_plan_sky", "publish_plan_sky", "PlannedSky"]
 
@@ -36,7 +36,6 @@ def _setup(settings):
     """The plan's SkySetup, the sky model's title and the calibration (or None)."""
     from ..core.stokes import diattenuation_from_extinction
     from ..plan.sky import SkySetup
-    from ..read.calibration_file import read_calibration
     from ..registries import SKY_RADIANCE_MODELS
     from ..sky.models import get_model
     from .sky import lens_of
@@ -52,7 +51,7 @@ def _setup(settings):
                   sun_mask_deg=float(sk.sun_mask_deg),
                   sky_mask=None if sk.sky_mask is None else sk.sky_mask.as_mask((h, w)),
                   region_mask=None if region is None else region.as_mask((h, w)))
-    cal = None if est.calibration is None else read_calibration(est.calibration)
+    cal = load_calibration(est.calibration)
     return st, model.title, cal
 
 

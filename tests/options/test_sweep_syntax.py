@@ -24,12 +24,12 @@ def test_time_sweep_iso_times_keep_their_own_offset():
 
 
 @pytest.mark.parametrize("text, match", [
-    ("06:00,08:00", "START,END,STEP"),
-    ("06:00,08:00,0", "step"),
-    ("06:00,25:00,30", "not a clock time"),
-    ("06:00,2026-06-21T08:00+02:00,30", "both as clock times"),
-    ("2026-06-21T06:00,2026-06-21T08:00,30", "neither a clock time"),
-    ("08:00,06:00,30", "START <= END"),
+    pytest.param("06:00,08:00", "START,END,STEP", id="two parts"),
+    pytest.param("06:00,08:00,0", "step", id="zero step"),
+    pytest.param("06:00,25:00,30", "not a clock time", id="hour 25"),
+    pytest.param("06:00,2026-06-21T08:00+02:00,30", "both as clock times", id="mixed forms"),
+    pytest.param("2026-06-21T06:00,2026-06-21T08:00,30", "neither a clock time", id="no UTC offset"),
+    pytest.param("08:00,06:00,30", "START <= END", id="end before start"),
 ])
 def test_bad_time_sweeps(text, match):
     with pytest.raises(InputError, match=match):

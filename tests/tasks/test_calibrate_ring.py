@@ -66,12 +66,17 @@ def test_a_weak_reference_is_refused_and_nothing_written(tmp_path):
 
 
 @pytest.mark.parametrize("options, match", [
-    ({"calibration": "x.nc"}, "drop --calibration"),
+    ({"calibration": "CAL"}, "drop --calibration"),
     ({"angle_offset": 3.0}, "drop --angle-offset"),
     ({"mosaic": "90,45;135,0"}, "drop --mosaic"),
     ({"region": None}, "--region is required"),
 ])
 def test_settings_that_would_move_the_scale_are_refused(tmp_path, options, match):
+    from polarsky.estimate.calibration import Calibration
+    from polarsky.write.calibration_file import write_calibration
+
     paths = reference_bracket(tmp_path / "in", offset_deg=5.0)
+    write_calibration(tmp_path / "calibration.nc", Calibration(kind="ring", angle_offset_deg=np.array([1.0])))
+    options = {k: (str(tmp_path) if v == "CAL" else v) for k, v in options.items()}
     with pytest.raises(InputError, match=match):
         run_calibrate_ring(paths, tmp_path / "out", **{"region": "0,0,60,40", **options})
