@@ -8,7 +8,7 @@ from __future__ import annotations
 
 import numpy as np
 
-__all__ = ["region_stokes_sum", "RegionSink"]
+__all__ = ["region_stokes_sum", "RegionSink", "RegionNoiseSink"]
 
 
 def region_stokes_sum(s0, s1, s2, valid, mask):
@@ -48,3 +48,33 @@ class RegionSink:
             sums, n = region_stokes_sum(products["S0"], products["S1"], products["S2"], products["valid"], m[r0:r1])
             self.sums[k] += sums
             self.counts[k] += n
+
+
+class RegionNoiseSink:
+    """One region's summed Stokes vector with its noise, block by block (``polarsky calibrate ring``).
+
+    Besides the sums of :func:`region_stokes_sum` it keeps the sum of the per-pixel linear
+    polarization ``L = sqrt(S1^2 + S2^2)`` and the summed noise variance of S1 (= of S2 for
+    equally conditioned analyzers), from the estimate's ``sigma_aolp``:
+    ``sigma_S1 = 2 L sigma_aolp`` (rad), the high-SNR relation ``sigma_psi = sigma_S1 / (2 L)``
+    (Serkowski 1962, from memory).
+    """
+
+    def __init__(self, mask):
+        self.mask = np.asarray(mask, bool)
+        self.sums = np.zeros(3)
+        self.lin_sum = 0.0
+        self.var_s12 = 0.0
+        self.count = 0
+
+    def write(self, r0, r1, products, frame0):
+        sel = self.mask[r0:r1] & np.asarray(products["valid"], bool).all(axis=0)
+        if not sel.any():
+            return
+        s0, s1, s2 = (np.asarray(products[k])[:, sel].astype(np.float64) for k in ("S0", "S1", "S2"))
+        lin = np.hypot(s1, s2)
+        sig = np.deg2rad(np.asarray(products["sigma_aolp"])[:, sel].astype(np.float64))
+        self.sums += [s0.sum(), s1.sum(), s2.sum()]
+        self.lin_sum += float(lin.sum())
+        self.var_s12 += float(np.nansum((2.0 * lin * sig) ** 2))
+        self.count += int(sel.sum())

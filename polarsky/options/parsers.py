@@ -243,3 +243,38 @@ def scheduler(value, what, base=None, spec=None):
     if "://" not in s:
         raise InputError(f"{what} must be an address like tcp://host:8786, got {value!r}")
     return s
+
+
+def size_px(value, what, base=None, spec=None):
+    """``WIDTH,HEIGHT`` in whole pixels, 8 to 8000 a side."""
+    vals = syntax.parse_number_list(value, what, 2)
+    if any(v != int(v) or not 8 <= v <= 8000 for v in vals):
+        raise InputError(f"{what} {value!r} must be two whole numbers WIDTH,HEIGHT between 8 and 8000 pixels")
+    return tuple(int(v) for v in vals)
+
+
+def incidence(value, what, base=None, spec=None):
+    return check_range(_num(value, what), 0, 90, what, unit="degrees from the surface normal (0 = straight at the "
+                                                          "surface, 90 = grazing)")
+
+
+def refractive_index(value, what, base=None, spec=None):
+    v = _num(value, what)
+    if v <= 0:
+        raise InputError(f"{what} {v:g} must be a positive number: the refractive index of the reflecting medium "
+                         "relative to air, e.g. 1.333 for water, 1.5 for glass")
+    if v <= 1:
+        raise InputError(f"{what} {v:g} is not above 1: a surface reflects glare toward the camera only from a "
+                         "denser medium (water 1.333, glass 1.5); give the index relative to air")
+    if v > 5:
+        raise InputError(f"{what} {v:g} is above 5; dielectric surfaces lie between 1.3 and 2.5 (metals are not "
+                         "described by a real index)")
+    return v
+
+
+def sweep(value, what, base=None, spec=None):
+    return syntax.parse_sweep(value, what)
+
+
+def time_sweep(value, what, base=None, spec=None):
+    return syntax.parse_time_sweep(value, what)

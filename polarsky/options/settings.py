@@ -34,7 +34,8 @@ def _field(name: str, entry: dict):
     if entry.get("multiple") and default is None:
         default = ()
     spec = {"parse": getattr(parsers, entry["parse"]), "help": entry["help"], "metavar": entry.get("metavar"),
-            "choices": entry.get("choices"), "multiple": bool(entry.get("multiple")), "flag": "--" + name.replace("_", "-")}
+            "choices": entry.get("choices"), "multiple": bool(entry.get("multiple")), "flag": "--" + name.replace("_", "-"),
+            "flag_value": entry.get("flag_value")}
     return name, object, field(default=default, metadata=spec)
 
 
@@ -54,6 +55,9 @@ OutputSettings = _group("output", "OutputSettings")
 GeometrySettings = _group("geometry", "GeometrySettings")
 SkySettings = _group("sky", "SkySettings")
 AdviseSettings = _group("advise", "AdviseSettings")
+PlanSettings = _group("plan", "PlanSettings")
+GlareSettings = _group("glare", "GlareSettings")
+RingSettings = _group("ring", "RingSettings")
 CalibrateSettings = _group("calibrate", "CalibrateSettings")
 DiscoverySettings = _group("discovery", "DiscoverySettings")
 ReportSettings = _group("report", "ReportSettings")
@@ -61,7 +65,8 @@ ClusterSettings = _group("cluster", "ClusterSettings")
 
 #: group name (TOML table) -> settings class
 GROUPS = {"read": ReadSettings, "mosaic": MosaicSettings, "estimate": EstimateSettings, "output": OutputSettings,
-          "geometry": GeometrySettings, "sky": SkySettings, "advise": AdviseSettings, "calibrate": CalibrateSettings,
+          "geometry": GeometrySettings, "sky": SkySettings, "advise": AdviseSettings, "plan": PlanSettings,
+          "glare": GlareSettings, "ring": RingSettings, "calibrate": CalibrateSettings,
           "discovery": DiscoverySettings, "report": ReportSettings, "cluster": ClusterSettings}
 
 _GROUP_OF = {f.name: g for g, cls in GROUPS.items() for f in fields(cls)}
@@ -98,6 +103,9 @@ class Settings:
     geometry: GeometrySettings = field(default_factory=GeometrySettings)
     sky: SkySettings = field(default_factory=SkySettings)
     advise: AdviseSettings = field(default_factory=AdviseSettings)
+    plan: PlanSettings = field(default_factory=PlanSettings)
+    glare: GlareSettings = field(default_factory=GlareSettings)
+    ring: RingSettings = field(default_factory=RingSettings)
     calibrate: CalibrateSettings = field(default_factory=CalibrateSettings)
     discovery: DiscoverySettings = field(default_factory=DiscoverySettings)
     report: ReportSettings = field(default_factory=ReportSettings)

@@ -9,7 +9,7 @@ from __future__ import annotations
 
 from ._common import collect_warnings, open_source, resolve_settings
 
-__all__ = ["run_advise"]
+__all__ = ["run_advise", "advise_surface"]
 
 
 def run_advise(frames=(), out_dir=None, settings=None, *, progress: bool = False, **options) -> dict:
@@ -24,7 +24,9 @@ def run_advise(frames=(), out_dir=None, settings=None, *, progress: bool = False
     progress : bool
     **options
         Any setting by name; ``region`` is required, ``protect`` optional (boxes
-        ``"x0,y0,x1,y1"`` or mask images).
+        ``"x0,y0,x1,y1"`` or mask images); ``surface`` or ``index`` (with ``pitch_deg``)
+        add the angle of incidence estimated from the region's DoLP; a ring calibration
+        (``calibration``) adds the recommendation as a ring reading.
 
     Returns
     -------
@@ -32,9 +34,11 @@ def run_advise(frames=(), out_dir=None, settings=None, *, progress: bool = False
         The advice (docs/schemas/advice.schema.json): ``best_angle_deg``,
         ``reduction_stops``, ``reduction_stops_ideal``, ``region_dolp``, ``region_aolp_deg``
         and, with a protected region, ``contrast_gain``, ``protect_intensity``,
-        ``region_intensity`` and ``minimum_angle_deg`` (the angle that only darkens the region).
+        ``region_intensity`` and ``minimum_angle_deg`` (the angle that only darkens the region),
+        ``best_ring_reading_deg`` with a ring calibration, ``surface_estimate`` with a surface.
     """
     from ..advice.regions import RegionSink
+    from ..advice.ring import is_ring, ring_of_calibration
     from ..advice.result import advice_result
     from ..core.stokes import diattenuation_from_extinction
     from ..errors import InputError
@@ -48,6 +52,7 @@ def run_advise(frames=(), out_dir=None, settings=None, *, progress: bool = False
     adv = settings.advise
     if adv.region is None:
         raise InputError("--region is required: the region to darken, a box x0,y0,x1,y1 or a mask image")
+    surface, pitch = advise_surface(settings)
     if out_dir is not None:
         check_destination(out_dir)
     with collect_warnings() as caught:
@@ -64,7 +69,9 @@ def run_advise(frames=(), out_dir=None, settings=None, *, progress: bool = False
         result = advice_result(sink.sums, sink.counts, region=adv.region, protect=adv.protect, extinction=extinction,
                                analyzer_angles_deg=op.facts["analyzer_angles_deg"], inputs=op.inputs,
                                shifts_px=op.facts.get("shifts_px"), polarizer=op.facts["polarizer"],
-                               angle_offset_deg=float(offsets.mean()))
+                               angle_offset_deg=float(offsets.mean()), calibration=op.facts.get("calibration"),
+                               ring=ring_of_calibration(op.calibration) if is_ring(op.calibration) else None,
+                               surface=surface, pitch_deg=pitch)
         result["warnings"] = caught.messages()
         if out_dir is not None:
             d = 1.0 if extinction is None else diattenuation_from_extinction(extinction)
@@ -78,3 +85,23 @@ def run_advise(frames=(), out_dir=None, settings=None, *, progress: bool = False
                 write_json(stage.path("advice.json"), result)
                 stage.publish()
     return result
+
+
+def advise_surface(settings):
+    """The reflecting medium and camera pitch of ``advise --surface`` (checked before any frame is read).
+
+    Returns
+    -------
+    (surface, pitch_deg)
+        :func:`polarsky.advice.surface.resolve_surface` or None; the pitch if given, else None.
+    """
+    from ..advice.surface import resolve_surface
+    from ..errors import InputError
+
+    gl = settings.glare
+    pitch = settings.geometry.pitch_deg if "pitch_deg" in settings.given else None
+    if gl.surface is None and gl.index is None:
+        if pitch is not None:
+            raise InputError("--pitch-deg is used with --surface or --index (the incidence estimate); add one or drop it")
+        return None, None
+    return resolve_surface(gl.surface, gl.index), pitch
