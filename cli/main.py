@@ -29,6 +29,7 @@ COMMAND_MODULES = dict(
     demo="Run polarsky on an invented scene with known truth.",
     sky="Compare the sky with the clear-sky model.",
     stokes="Stokes maps, DoLP and AoLP with uncertainties.",
+    workbench="A page in your browser: mark the glare, read the angle.",
 )
 
 
