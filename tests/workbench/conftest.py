@@ -72,8 +72,9 @@ def workbench(bracket, tmp_path_factory):
     wb.stop()
 
 
-def advise_json(capsys, frames, region, protect=None) -> str:
-    """What ``polarsky advise FRAMES --region ... [--protect ...] --json`` prints (in-process)."""
+def advise_json(capsys, frames, region, protect=None, **options) -> str:
+    """What ``polarsky advise FRAMES --region ... [--protect ...] [--OPTION VALUE] --json`` prints
+    (in-process)."""
     import warnings
 
     from polarsky.cli.main import main
@@ -82,6 +83,8 @@ def advise_json(capsys, frames, region, protect=None) -> str:
     args = ["advise", *map(str, frames), "--region", region, "--json"]
     if protect:
         args += ["--protect", protect]
+    for name, value in options.items():
+        args += ["--" + name.replace("_", "-"), str(value)]
     capsys.readouterr()
     with warnings.catch_warnings():
         warnings.simplefilter("ignore", PolarskyWarning)

@@ -170,3 +170,25 @@ def test_a_bracket_that_cannot_be_processed_is_an_input_error(tmp_path):
     frames = write_bracket(tmp_path / "in", h=30, w=40)
     with pytest.raises(InputError, match="--angles gives 2 angle"):
         prepare(frames, tmp_path, angles="0,45")
+
+
+def test_mosaic_frames_given_directly_give_what_advise_prints(tmp_path, capsys):
+    from polarsky.synthetic.mosaic import mosaic_sample, scene_gradient, write_mosaic_png
+    from polarsky.write.jsonio import dumps
+
+    from .conftest import advise_json
+
+    cell = "90,45;135,0"
+    frame = write_mosaic_png(tmp_path / "sensor.png", mosaic_sample(scene_gradient(64, 96), cell))
+    wb, _ = prepare([frame], tmp_path, mosaic=cell)
+    try:
+        s = wb.session
+        e = s.entry(s.current)
+        assert e.status == "ready" and e.view.shape == (64, 96)
+        got = dumps(s.advice(e.id, "10,20,60,50")[0]) + "\n"
+        assert got == advise_json(capsys, [frame], "10,20,60,50", mosaic=cell)
+        words = shlex.split(s.panel(e.id, "10,20,60,50")["command"])
+        assert words[words.index("--mosaic") + 1] == cell
+    finally:
+        wb.sock.close()
+        wb.session.close()
