@@ -11,7 +11,7 @@ from __future__ import annotations
 import dataclasses
 import shlex
 
-__all__ = ["advise_command", "recipe_from_facts", "GROUPS"]
+__all__ = ["advise_command", "recipe_from_facts", "recorded_paths", "GROUPS"]
 
 #: Settings groups that decide the Stokes estimate (and so the advice).
 GROUPS = ("read", "mosaic", "estimate")
@@ -60,6 +60,17 @@ def advise_command(recipe: dict | None, region: str, protect: str | None = None)
     return " ".join(shlex.quote(w) for w in words)
 
 
+def recorded_paths(paths) -> list:
+    """Input paths a result recorded, each where it lies now: a path recorded inside the
+    staging folder of a run that has since published it (:func:`polarsky.write.stage.published_path`)
+    is given in the published folder."""
+    from pathlib import Path
+
+    from ..write.stage import published_path
+
+    return [str(p) if Path(p).exists() else str(published_path(p)) for p in paths]
+
+
 def recipe_from_facts(facts: dict, n_channels: int) -> tuple[dict | None, str]:
     """A recipe rebuilt from the attributes of a ``stokes.nc``, and a note for people.
 
@@ -98,4 +109,4 @@ def recipe_from_facts(facts: dict, n_channels: int) -> tuple[dict | None, str]:
     note = "rebuilt from the attributes of stokes.nc"
     if facts.get("angle_source") == "manifest":
         note += " (the manifest's exposure times are not recorded there: check them)"
-    return {"frames": list(facts["inputs"]), "settings": settings}, note
+    return {"frames": recorded_paths(facts["inputs"]), "settings": settings}, note

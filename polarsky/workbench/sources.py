@@ -17,6 +17,7 @@ from pathlib import Path
 
 from ..errors import InputError, one_line
 from ..read.sky_file import SKY_FILE, SKY_JSON
+from .commandline import recorded_paths
 from .view import View
 
 __all__ = ["add_paths", "bracket_entry_args", "bracket_args", "STOKES_FILE", "BATCH_SUMMARY"]
@@ -110,7 +111,7 @@ def _add_batch(session, folder: Path, rel: str) -> None:
 
 def _add_sky(session, folder: Path, settings, rel: str) -> None:
     try:
-        inputs = [str(p) for p in json.loads((folder / SKY_JSON).read_text(encoding="utf-8")).get("inputs", [])]
+        inputs = recorded_paths(json.loads((folder / SKY_JSON).read_text(encoding="utf-8")).get("inputs", []))
     except (OSError, ValueError, AttributeError):
         inputs = []
     if not inputs:

@@ -3,6 +3,7 @@
 from __future__ import annotations
 
 import json
+import pathlib
 import shlex
 import warnings
 
@@ -189,6 +190,27 @@ def test_mosaic_frames_given_directly_give_what_advise_prints(tmp_path, capsys):
         assert got == advise_json(capsys, [frame], "10,20,60,50", mosaic=cell)
         words = shlex.split(s.panel(e.id, "10,20,60,50")["command"])
         assert words[words.index("--mosaic") + 1] == cell
+    finally:
+        wb.sock.close()
+        wb.session.close()
+
+
+def test_a_result_that_recorded_its_staging_folder_finds_its_frames(sky_result, tmp_path):
+    """A run that staged its whole output (as 'polarsky demo' does) records inputs inside the
+    staging folder; once published they are found in the published folder."""
+    import shutil
+
+    shoot = tmp_path / "shoot"
+    shutil.copytree(sky_result / "sky", shoot / "sky")
+    shutil.copytree(sky_result / "sky-bracket", shoot / "sky-bracket")
+    info = json.loads((shoot / "sky" / "sky.json").read_text())
+    staged = tmp_path / ".shoot.polarsky-staging-412-0a1b2c3d" / "sky-bracket"
+    info["inputs"] = [str(staged / pathlib.Path(p).name) for p in info["inputs"]]
+    (shoot / "sky" / "sky.json").write_text(json.dumps(info))
+    wb, _ = prepare([shoot / "sky"], tmp_path)
+    try:
+        e = wb.session.entry(wb.session.current)
+        assert e.status == "ready" and e.recipe["frames"][0] == str(shoot / "sky-bracket" / "kestrel_sky_000deg.tif")
     finally:
         wb.sock.close()
         wb.session.close()
