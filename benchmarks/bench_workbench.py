@@ -118,52 +118,62 @@ def boxes_for(w, h):
             ("the whole frame", (0, 0, w, h))]
 
 
+def demo_case(demo, tmp) -> None:
+    """The demo bracket (rendered into ``tmp`` unless ``demo`` names a 'polarsky demo' folder)."""
+    if demo is None:
+        import warnings
+
+        from polarsky.errors import PolarskyWarning
+        from polarsky.tasks.demo import run_demo
+
+        demo = tmp / "demo"
+        print("rendering the demo ...", flush=True)
+        with warnings.catch_warnings():
+            warnings.simplefilter("ignore", PolarskyWarning)
+            run_demo(demo)
+    from polarsky.synthetic.harbour import PLATE_BOX, WATER_BOX
+
+    frames = sorted((Path(demo) / "bracket").glob("*deg.png"))
+    run_case("demo bracket (kestrel, aligned)", frames,
+             [("demo water box", WATER_BOX), ("demo plate box", PLATE_BOX)], tmp / "saves", align=True)
+
+
+def big_case(big, megapixels, tmp) -> None:
+    """A synthetic bracket of ``megapixels`` (rendered into ``big`` or ``tmp`` unless there)."""
+    import tifffile
+
+    big = Path(big) if big else tmp / "big"
+    frames = sorted(big.glob("*deg.tif"))
+    if not frames:
+        from polarsky.synthetic.tree import write_bracket
+
+        h = int(round(math.sqrt(megapixels * 1e6 / 1.5)))
+        w = int(round(h * 1.5))
+        print(f"\nrendering a {w}x{h} bracket into {big} ...", flush=True)
+        frames = write_bracket(big, "big", height=h, width=w, seed=3)
+    h, w = tifffile.TiffFile(frames[0]).pages[0].shape[:2]
+    run_case(f"synthetic {w * h / 1e6:.0f} MP bracket", frames, boxes_for(w, h), tmp / "saves")
+
+
 def main(argv=None) -> int:
+    import os
+
     ap = argparse.ArgumentParser(description=__doc__.splitlines()[0])
     ap.add_argument("--demo", help="an existing 'polarsky demo --out' folder (default: make one)")
-    ap.add_argument("--big", help="a folder with an existing large bracket <stem>_<angle>deg.tif")
+    ap.add_argument("--big", help="a folder with an existing large bracket <stem>_<angle>deg.tif (default: make one)")
     ap.add_argument("--megapixels", type=float, default=24.0)
     ap.add_argument("--keep", action="store_true", help="keep the rendered files")
     a = ap.parse_args(argv)
-    import os
-
     print(f"machine: {os.cpu_count()} cores, load average {os.getloadavg()[0]:.2f} (other work slows every number)")
     tmp = Path(tempfile.mkdtemp(prefix="bench-workbench-"))
     try:
-        demo = Path(a.demo) if a.demo else tmp / "demo"
-        if not a.demo:
-            import warnings
-
-            from polarsky.errors import PolarskyWarning
-            from polarsky.tasks.demo import run_demo
-
-            print("rendering the demo ...", flush=True)
-            with warnings.catch_warnings():
-                warnings.simplefilter("ignore", PolarskyWarning)
-                run_demo(demo)
-        from polarsky.synthetic.harbour import PLATE_BOX, WATER_BOX
-
-        frames = sorted((demo / "bracket").glob("*deg.png"))
-        run_case("demo bracket (kestrel, aligned)", frames,
-                 [("demo water box", WATER_BOX), ("demo plate box", PLATE_BOX)], tmp / "saves", align=True)
-        big = Path(a.big) if a.big else tmp / "big"
-        frames = sorted(big.glob("*deg.tif"))
-        if not frames:
-            from polarsky.synthetic.tree import write_bracket
-
-            h = int(round(math.sqrt(a.megapixels * 1e6 / 1.5)))
-            w = int(round(h * 1.5))
-            print(f"\nrendering a {w}x{h} bracket into {big} ...", flush=True)
-            frames = write_bracket(big, "big", height=h, width=w, seed=3)
-        import tifffile
-
-        h, w = tifffile.TiffFile(frames[0]).pages[0].shape[:2]
-        run_case(f"synthetic {w * h / 1e6:.0f} MP bracket", frames, boxes_for(w, h), tmp / "saves")
+        demo_case(a.demo, tmp)
+        big_case(a.big, a.megapixels, tmp)
     finally:
-        if a.keep:
-            print(f"\nfiles kept in {tmp}")
-        else:
+        if not a.keep:
             shutil.rmtree(tmp, ignore_errors=True)
+    if a.keep:
+        print(f"\nfiles kept in {tmp}")
     return 0
 
 
