@@ -122,3 +122,15 @@ def test_another_host_prints_a_warning(frames, tmp_path):
         out, err = interrupt(proc)
     assert proc.returncode == 0
     assert "warning: --host 127.0.0.2 makes the workbench reachable from other machines" in err
+
+
+def test_the_options_come_from_the_options_table(frames, tmp_path):
+    r = run([*map(str, frames), "--port", "70000"], tmp_path)
+    assert r.returncode == 2
+    assert r.stderr.strip() == "error: --port must be a port number from 0 to 65535 (0: any free port), got '70000'"
+    r = run([*map(str, frames), "--host", "127.0.0.1/8"], tmp_path)
+    assert r.returncode == 2 and r.stderr.startswith("error: --host must be an address of this machine")
+    r = run([], tmp_path)
+    assert r.returncode == 2 and "give a bracket's frames" in r.stderr
+    r = run([*map(str, frames), "--demosaic", "newton"], tmp_path)  # a mosaic option without --mosaic
+    assert r.returncode == 2 and "apply only to mosaic frames" in r.stderr
