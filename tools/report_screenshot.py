@@ -6,7 +6,7 @@ Usage (from the repository root)::
 
 It prints the console errors and the network requests the page made (there should be
 none besides the file itself and embedded ``data:`` pictures).  The small DevTools-protocol
-driver here (:class:`Chromium`) is also what ``tests/test_report_browser.py`` uses.
+driver here (:class:`Chromium`) is also what ``tests/batch/test_report_browser.py`` uses.
 Needs ``/usr/bin/chromium`` (Debian package ``chromium``) and ``websocket-client``.
 """
 

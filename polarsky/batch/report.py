@@ -203,7 +203,7 @@ def write_report(path, rows: list[dict], *, out_dir, title: str, embed_images: b
     has_sky = any(r.get("rms_dolp_residual") not in (None, "") for r in rows)
     cols = [c for c in COLUMNS
             if not (c[0] in ("best_angle_deg", "reduction_stops") and not has_adv)
-            and not (c[0].startswith("sky_") and not has_sky)]
+            and not (c[0] in ("rms_dolp_residual", "rms_aolp_residual_deg") and not has_sky)]
     e = html.escape
     out = ["<!DOCTYPE html>", '<html lang="en"><head><meta charset="utf-8">',
            '<meta name="viewport" content="width=device-width, initial-scale=1">',

@@ -38,7 +38,7 @@ import numpy as np
 from ..core.stokes import analysis_matrix, fit_stokes_per_pixel
 from ..errors import InputError
 from .layout import MosaicLayout
-from .methods import interpolate_bilinear_stack, invalid_after, validate_method
+from .methods import BORDER, interpolate_bilinear_stack, invalid_after, validate_method
 
 __all__ = ["decode_mosaic", "per_pixel_solve", "position_matrix", "check_calibration", "decode_margin"]
 

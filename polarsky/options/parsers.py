@@ -16,6 +16,20 @@ from .. import registries
 from . import syntax
 
 
+def _in_file(what, parse):
+    """``parse()``, with a settings file's ``what`` ("file [table] key") put before its message.
+
+    Parsers that defer to another module's checks (regions, the mosaic cell, registries) get
+    messages naming the option; values from a batch file must name the file, table and key.
+    """
+    try:
+        return parse()
+    except InputError as exc:
+        if what.startswith("--"):
+            raise
+        raise InputError(f"{what}: {exc}") from None
+
+
 def _num(value, what, *, allow_exponent=True):
     return parse_number(value, what, allow_exponent=allow_exponent)
 
@@ -70,7 +84,7 @@ def choice(value, what, base=None, spec=None):
 
 def registered(value, what, base=None, spec=None):
     """A name of the registry the table names in ``choices`` (its canonical spelling)."""
-    return getattr(registries, spec["choices"]).key(value)
+    return _in_file(what, lambda: getattr(registries, spec["choices"]).key(value))
 
 
 def path(value, what, base=None, spec=None):
@@ -158,7 +172,7 @@ def bit_depth(value, what, base=None, spec=None):
 def mosaic_cell(value, what, base=None, spec=None):
     from ..mosaic.layout import parse_mosaic
 
-    return parse_mosaic(str(value)).text
+    return _in_file(what, lambda: parse_mosaic(str(value)).text)
 
 
 def bayer(value, what, base=None, spec=None):
@@ -193,7 +207,7 @@ def poses(value, what, base=None, spec=None):
 def region(value, what, base=None, spec=None):
     from ..read.masks import parse_region
 
-    return parse_region(value, option=spec["flag"] if spec else what, base=base)
+    return _in_file(what, lambda: parse_region(value, option=spec["flag"] if spec else what, base=base))
 
 
 def embed(value, what, base=None, spec=None):

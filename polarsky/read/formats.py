@@ -103,7 +103,7 @@ def header_pixels(path) -> int | None:
         return None
 
 
-def check_complete(path, data: bytes) -> None:
+def check_complete(path, data: bytes, *, what: str = "frame") -> None:
     """Refuse a truncated or damaged PNG or JPEG before decoding it.
 
     PNG: every chunk's CRC (ISO/IEC 15948, section 5.3) and the IEND chunk; JPEG: the end of
@@ -140,4 +140,5 @@ def check_complete(path, data: bytes) -> None:
         elif not tail.endswith(b"\xff\xd9"):
             bad = "it has no end-of-image marker (truncated)"
     if bad:
-        raise InputError(f"frame {path} cannot be decoded: {bad}; copy the file again from the camera or card")
+        fix = "copy the file again from the camera or card" if what == "frame" else "save the image again"
+        raise InputError(f"{what} {path} cannot be decoded: {bad}; {fix}")

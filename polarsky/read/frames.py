@@ -140,7 +140,7 @@ def decode_image(path: Path, *, what: str = "frame") -> np.ndarray:
             import cv2
 
             data = path.read_bytes()
-            check_complete(path, data)
+            check_complete(path, data, what=what)
             arr = cv2.imdecode(np.frombuffer(data, np.uint8), cv2.IMREAD_UNCHANGED | cv2.IMREAD_IGNORE_ORIENTATION)
             if arr is None:
                 raise ValueError("the decoder returned nothing")

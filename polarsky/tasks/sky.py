@@ -38,7 +38,8 @@ def stokes_products(frames, settings) -> dict:
     run_blocks(src, op.noise, [mem])
     a = mem.arrays
     return {"S": np.stack([a["S0"], a["S1"], a["S2"]]), "dolp": a["dolp"], "aolp": a["aolp"], "valid": a["valid"],
-            "channels": src.channels, "attrs": {"polarizer": op.facts["polarizer"]}, "inputs": op.inputs}
+            "channels": src.channels, "inputs": op.inputs,
+            "attrs": {k: op.facts[k] for k in ("polarizer", "analysis_matrix", "analyzer_angles_deg")}}
 
 
 def prepare_sky(frames, settings, *, stokes=None):

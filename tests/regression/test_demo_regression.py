@@ -8,7 +8,7 @@ from __future__ import annotations
 
 import pytest
 
-from polarsky.demo import render_scene
+from polarsky.synthetic.harbour import render_scene
 
 
 def test_demo_truth_regression():
