@@ -112,27 +112,31 @@ def run_workbench(paths, out_dir=None, settings=None, **options) -> int:
         _say(f"warning: --host {host} makes the workbench reachable from other machines; anyone who gets its "
              "address with the token can see these results and save into the output folder", err=True)
     workbench, watcher = prepare_workbench(paths, out_dir, settings)
-    _say(f"open {workbench.url}")
-    _say(f"saves go to {workbench.session.out_dir}; Ctrl-C stops the workbench")
-    if watcher is not None:
-        _say(f"watching {Path(paths[0]).resolve()} for new brackets")
-        watcher.start()
-    if settings.workbench.browser:
-        def open_page():
-            while not workbench.server.started and not workbench.server.should_exit:
-                time.sleep(0.05)
-            if workbench.server.started:
-                import webbrowser
-
-                webbrowser.open(workbench.url)
-        threading.Thread(target=open_page, daemon=True).start()
-    try:
+    try:  # Ctrl-C at any moment from the printed address on stops the workbench cleanly
+        _say(f"open {workbench.url}")
+        _say(f"saves go to {workbench.session.out_dir}; Ctrl-C stops the workbench")
+        if watcher is not None:
+            _say(f"watching {Path(paths[0]).resolve()} for new brackets")
+            watcher.start()
+        if settings.workbench.browser:
+            threading.Thread(target=_open_page, args=(workbench,), daemon=True).start()
         workbench.serve()
     except KeyboardInterrupt:
         pass
     finally:
         if watcher is not None:
             watcher.stop()
+        workbench.sock.close()
         workbench.session.close()
     _say("workbench stopped")
     return 0
+
+
+def _open_page(workbench) -> None:
+    """Open the page in the default browser once the server answers."""
+    while not workbench.server.started and not workbench.server.should_exit:
+        time.sleep(0.05)
+    if workbench.server.started:
+        import webbrowser
+
+        webbrowser.open(workbench.url)
