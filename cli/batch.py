@@ -40,6 +40,7 @@ def command(root, out_dir, config_file, list_only, as_json, **kw):
     settings, tables = load_settings(config_file, overrides=pop_settings(kw, *GROUPS, exclude=EXCLUDE))
     sky = sky_requested(tables)
     if list_only:
+        settings.check_frame_options()
         brackets = list_brackets(root, Path(out_dir).resolve() if out_dir else None, settings=settings)
         if as_json:
             print_json({"root": str(root.resolve()), "brackets": [b.as_dict() for b in brackets],

@@ -87,6 +87,9 @@ def main(args=None) -> int:
     except InputError as exc:
         print(f"error: {exc}", file=sys.stderr)
         return 2
+    except PolarskyWarning as exc:  # python -W error: a warning became an error
+        print(f"error: {one_line(exc)} (warnings are errors in this Python)", file=sys.stderr)
+        return 2
     except click.UsageError as exc:
         hint = f" (see 'polarsky {exc.ctx.command_path.split(' ', 1)[-1]} --help')" if exc.ctx and exc.ctx.parent else \
             " (see 'polarsky --help')"

@@ -15,7 +15,8 @@ PLACE = dict(when=WHEN, lat=LAT, lon=LON)
 
 
 def sun():
-    from polarsky.sky.sun import parse_when, sun_position
+    from polarsky.options.syntax import parse_when
+    from polarsky.sky.sun import sun_position
 
     return sun_position(parse_when(WHEN), LAT, LON)
 

@@ -124,13 +124,15 @@ def distinct_orientations(angles_deg) -> np.ndarray:
     return np.unique(np.round(np.mod(np.asarray(angles_deg, dtype=np.float64).ravel(), 180.0), 6) % 180.0)
 
 
-def check_angles(angles_deg, *, warn_condition: float = BAD_CONDITION) -> float:
+def check_angles(angles_deg, *, warn_condition: float = BAD_CONDITION, what: str = "analyzer angles") -> float:
     """Check that an analyzer angle set determines S0, S1, S2; return cond(W).
 
     Parameters
     ----------
     angles_deg : array_like, shape (N,)
         Analyzer angles in degrees.
+    what : str
+        How to name the angles in messages.
     warn_condition : float
         Warn (:class:`PolarskyWarning`) when the 2-norm condition number exceeds this.
 
@@ -150,21 +152,21 @@ def check_angles(angles_deg, *, warn_condition: float = BAD_CONDITION) -> float:
     """
     angles = np.asarray(angles_deg, dtype=np.float64).ravel()
     if angles.size == 0 or not np.all(np.isfinite(angles)):
-        raise InputError(f"analyzer angles {list(angles_deg)!r} are not all finite numbers")
+        raise InputError(f"{what} {list(angles_deg)!r} are not all finite numbers")
     distinct = distinct_orientations(angles)
     if distinct.size < 3:
         raise InputError(
-            f"analyzer angles {_fmt(angles)} hold only {distinct.size} distinct value(s) "
+            f"{what} {_fmt(angles)} hold only {distinct.size} distinct value(s) "
             "modulo 180 deg; a linear Stokes estimate needs at least 3 (e.g. 0,45,90,135)"
         )
     w = analysis_matrix(angles)
     sv = np.linalg.svd(w, compute_uv=False)
     cond = float(sv[0] / sv[-1]) if sv[-1] > 1e-12 * sv[0] else float("inf")
     if not np.isfinite(cond):
-        raise InputError(f"analyzer angles {_fmt(angles)} are degenerate; spread them over 180 deg")
+        raise InputError(f"{what} {_fmt(angles)} are degenerate; spread them over 180 deg")
     if cond > warn_condition:
         warnings.warn(
-            f"analyzer angles {_fmt(angles)} are badly conditioned (condition number "
+            f"{what} {_fmt(angles)} are badly conditioned (condition number "
             f"{cond:.1f}; best is 1.41 for angles spread evenly over 180 deg): "
             "S1/S2 noise is amplified",
             PolarskyWarning,

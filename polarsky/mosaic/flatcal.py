@@ -73,7 +73,7 @@ def _check_bench_angles(angles_deg, n_frames):
     a = np.asarray(angles_deg, dtype=np.float64).ravel()
     if a.size != n_frames:
         raise InputError(f"{n_frames} calibration frames but {a.size} angles; give one --angles value per frame")
-    check_angles(a)  # at least 3 distinct orientations; a flat calibration typically uses 12 to 36
+    check_angles(a, what="reference-polarizer angles")  # at least 3 orientations; typically 12 to 36
     return a
 
 

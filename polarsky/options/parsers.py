@@ -96,6 +96,16 @@ def path(value, what, base=None, spec=None):
     return pth
 
 
+def calibration(value, what, base=None, spec=None):
+    """A calibration folder or file (checked to exist), or a Calibration object (Python API)."""
+    from ..estimate.calibration import Calibration
+    from ..read.calibration_file import find_calibration
+
+    if isinstance(value, Calibration):
+        return value
+    return _in_file(what, lambda: find_calibration(path(value, what, base)))
+
+
 def paths(value, what, base=None, spec=None):
     items = [value] if isinstance(value, (str, Path)) else list(value)
     return tuple(path(v, what, base) for v in items)

@@ -85,17 +85,25 @@ def parse_region(value, *, option: str = "--region", base: Path | None = None) -
     if isinstance(value, (list, tuple)):
         if len(value) != 4 or not all(isinstance(v, int) and not isinstance(v, bool) for v in value):
             raise InputError(f"{option} {list(value)!r} must be four whole numbers x0,y0,x1,y1 or a mask image")
-        return Region(text=",".join(str(v) for v in value), option=option, box=tuple(value))
+        return _box(tuple(value), ",".join(str(v) for v in value), option)
     text = str(value)
     m = _BOX.match(text)
     if m:
-        return Region(text=text.replace(" ", ""), option=option, box=tuple(int(v) for v in m.groups()))
+        return _box(tuple(int(v) for v in m.groups()), text.replace(" ", ""), option)
     p = Path(text)
     if base is not None and not p.is_absolute():
         p = base / p
     if not p.is_file():
         raise InputError(f"{option} {text!r} is neither {BOX_HELP.replace(' or a', ' nor an existing')}")
     return Region(text=str(p) if base is not None else text, option=option, path=p)
+
+
+def _box(box, text, option) -> Region:
+    x0, y0, x1, y1 = box
+    if min(box) < 0 or x1 <= x0 or y1 <= y0:
+        raise InputError(f"{option} {text} is not a box: give x0,y0,x1,y1 in pixels with 0 <= x0 < x1 and "
+                         "0 <= y0 < y1 (x1 and y1 exclusive)")
+    return Region(text=text, option=option, box=box)
 
 
 def read_mask_image(path, *, option: str = "--region") -> np.ndarray:

@@ -52,18 +52,26 @@ class Opened:
     timing: dict = field(default_factory=dict)
 
 
+def load_calibration(value):
+    """The Calibration of a setting: None, a Calibration object, or a file/folder to read."""
+    from ..estimate.calibration import Calibration
+    from ..read.calibration_file import read_calibration
+
+    if value is None or isinstance(value, Calibration):
+        return value
+    return read_calibration(value)
+
+
 def open_source(frames, settings, *, compiled: bool | None = None) -> Opened:
     """Read a bracket or mosaic frames as ``settings`` say, ready to estimate.
 
     ``compiled`` forces the compiled kernels on or off (default: by the input's size).
     """
     from ..core.noise import NoiseModel
-    from ..read.calibration_file import read_calibration
-
     settings.check_frame_options()
     est = settings.estimate
     noise = NoiseModel(gain_e_per_dn=est.gain_e_per_dn, read_noise_dn=est.read_noise_dn, source=est.noise)
-    cal = None if est.calibration is None else read_calibration(est.calibration)
+    cal = load_calibration(est.calibration)
     if settings.mosaic.mosaic is not None:
         return _open_mosaic(frames, settings, cal, noise, compiled)
     return _open_bracket(frames, settings, cal, noise, compiled)

@@ -11,7 +11,7 @@ import time
 import warnings
 
 from ..errors import PolarskyWarning
-from ._common import collect_warnings, open_source, resolve_settings
+from ._common import collect_warnings, load_calibration, open_source, resolve_settings
 
 __all__ = ["stokes_from_files", "stokes_from_mosaic_values", "run_stokes", "RESIDUAL_WARNING"]
 
@@ -203,7 +203,6 @@ def stokes_from_mosaic_values(values, invalid=None, settings=None, *, full_scale
     from ..estimate.sources import MosaicSource
     from ..mosaic.layout import check_frame_shape, parse_mosaic
     from ..mosaic.methods import validate_method
-    from ..read.calibration_file import read_calibration
     from ..write.dataset import stokes_dataset
     from ..write.summary import calibration_facts
 
@@ -215,7 +214,7 @@ def stokes_from_mosaic_values(values, invalid=None, settings=None, *, full_scale
     method = validate_method(mo.demosaic)
     values = np.asarray(values, dtype=np.float32)
     check_frame_shape(values.shape, layout)
-    cal = None if est.calibration is None else read_calibration(est.calibration)
+    cal = load_calibration(est.calibration)
     k = method.scale
     src = MosaicSource(values, invalid, layout, method, cal, full_scale=full_scale, srgb=srgb)
     noise = NoiseModel(gain_e_per_dn=est.gain_e_per_dn, read_noise_dn=est.read_noise_dn, source=est.noise)

@@ -28,6 +28,7 @@ def test_defaults_without_a_file():
 def test_full_file_is_read_and_paths_are_relative_to_it(tmp_path):
     (tmp_path / "cal").mkdir()
     (tmp_path / "mask.png").write_bytes(b"x")
+    (tmp_path / "cal" / "calibration.nc").write_bytes(b"")
     p = _write(tmp_path, """
 [discovery]
 time_gap_s = 4
@@ -53,7 +54,7 @@ thumbnail_px = 120
     assert s.discovery.time_gap_s == 4.0
     assert s.read.angles == (0.0, 60.0, 120.0) and s.read.transfer == "linear" and s.read.max_pixels == 1_000_000
     assert (s.estimate.extinction, s.estimate.angle_offset, s.estimate.align) == (500.0, 1.5, True)
-    assert s.estimate.calibration == tmp_path / "cal"
+    assert s.estimate.calibration == tmp_path / "cal" / "calibration.nc"
     assert s.output.pictures is False
     assert s.advise.region.box == (1, 2, 30, 20)
     assert s.advise.protect.path == tmp_path / "mask.png"

@@ -66,7 +66,7 @@ def test_cli_too_few_angles_exit_2(tmp_path, capsys):
     paths, angles, dark, angle = _bench_files(tmp_path, n_angles=2)
     rc = main(["calibrate", "flat", *paths, "--angles", "0,90", "--out", str(tmp_path / "c"), "--mosaic", LAY.text])
     err = capsys.readouterr().err
-    assert rc == 2 and err.startswith("error: only 2 distinct") and err.count("\n") == 1
+    assert rc == 2 and err.startswith("error: reference-polarizer angles 0,90 hold only 2 distinct") and err.count("\n") == 1
     assert not (tmp_path / "c").exists()
 
 

@@ -10,7 +10,8 @@ from polarsky.cli.main import main
 from polarsky.geometry import make_lens
 from polarsky.read.calibration_file import read_calibration
 from polarsky.sky.skymap import SkyGeometry
-from polarsky.sky.sun import parse_when, sun_position
+from polarsky.options.syntax import parse_when
+from polarsky.sky.sun import sun_position
 from polarsky.synthetic.sky import render_sky_bracket, write_tiff_bracket
 WHEN = "2024-06-21T17:30:00+02:00"
 GEO = ["--when", WHEN, "--lat", "47", "--lon", "8", "--hfov-deg", "70", "--yaw-deg", "10", "--pitch-deg", "25",

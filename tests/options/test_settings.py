@@ -30,10 +30,18 @@ def test_values_are_parsed_by_the_table():
     assert dataclasses.is_dataclass(s.geometry) and s.geometry.when.utcoffset().total_seconds() == 7200
 
 
-def test_relative_paths_follow_the_settings_file(tmp_path):
+def test_relative_paths_follow_the_settings_file(tmp_path, monkeypatch):
+    (tmp_path / "cal").mkdir()
+    (tmp_path / "cal" / "calibration.nc").write_bytes(b"")
     s = Settings.from_options({"calibration": "cal"}, base=tmp_path)
-    assert s.estimate.calibration == tmp_path / "cal"
-    assert Settings.from_options({"calibration": "cal"}).estimate.calibration == Path("cal")
+    assert s.estimate.calibration == tmp_path / "cal" / "calibration.nc"  # the folder names its file
+    monkeypatch.chdir(tmp_path)
+    assert Settings.from_options({"calibration": "cal"}).estimate.calibration == Path("cal") / "calibration.nc"
+
+
+def test_a_missing_calibration_is_refused_when_given(tmp_path):
+    with pytest.raises(InputError, match="calibration .*nope does not exist"):
+        Settings.from_options({"calibration": "nope"}, base=tmp_path)
 
 
 @pytest.mark.parametrize("options, match", [

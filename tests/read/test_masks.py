@@ -28,10 +28,15 @@ def test_bad_regions_are_named(value, match):
         parse_region(value, option="--region")
 
 
-@pytest.mark.parametrize("box", ["5,5,2,9", "0,0,99,4", "-1,0,3,3"])
-def test_box_that_does_not_fit_the_frame(box):
-    with pytest.raises(InputError, match=f"--region {box} does not fit in the 8x6 frame"):
-        parse_region(box).as_mask((6, 8))
+def test_box_that_does_not_fit_the_frame():
+    with pytest.raises(InputError, match="--region 0,0,99,4 does not fit in the 8x6 frame"):
+        parse_region("0,0,99,4").as_mask((6, 8))
+
+
+@pytest.mark.parametrize("box", ["5,5,2,9", "-1,0,3,3", "2,3,2,5"])
+def test_a_box_that_is_not_a_box_is_refused_when_given(box):
+    with pytest.raises(InputError, match=f"--region {box} is not a box"):
+        parse_region(box)
 
 
 def test_mask_image_relative_to_a_settings_file_and_of_the_frame_size(tmp_path):

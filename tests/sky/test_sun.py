@@ -6,7 +6,9 @@ import numpy as np
 import pytest
 
 from polarsky.errors import InputError
-from polarsky.sky.sun import parse_when, read_exif, resolve_time_place, sun_position
+from polarsky.options.syntax import parse_when
+from polarsky.read.exif import read_metadata as read_exif
+from polarsky.sky.sun import resolve_time_place, sun_position
 
 
 def test_spa_worked_example_reda_andreas_2004():

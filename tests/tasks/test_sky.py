@@ -14,7 +14,8 @@ from polarsky.errors import InputError, PolarskyWarning
 from polarsky.geometry import make_lens
 from polarsky.read.stokes_file import products_from_dataset
 from polarsky.sky.skymap import SkyGeometry
-from polarsky.sky.sun import parse_when, sun_position
+from polarsky.options.syntax import parse_when
+from polarsky.sky.sun import sun_position
 from polarsky.synthetic.sky import render_sky_bracket, write_tiff_bracket
 from polarsky.tasks.sky import run_sky
 from polarsky.tasks.stokes import stokes_from_files

@@ -11,7 +11,8 @@ from polarsky.read.stokes_file import products_from_dataset, read_stokes
 from polarsky.sky.models import get_model
 from polarsky.sky.orient import fit_orientation, sample_bracket
 from polarsky.sky.skymap import SkyGeometry
-from polarsky.sky.sun import parse_when, resolve_time_place, sun_position
+from polarsky.options.syntax import parse_when
+from polarsky.sky.sun import resolve_time_place, sun_position
 from polarsky.tasks.calibrate_sky import fit_sky_calibration, split_brackets
 from polarsky.tasks.sky import run_sky, stokes_products
 from tests.sky_scene import PLACE
