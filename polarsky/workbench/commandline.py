@@ -10,6 +10,7 @@ from __future__ import annotations
 
 import dataclasses
 import shlex
+from pathlib import Path
 
 __all__ = ["advise_command", "recipe_from_facts", "recorded_paths", "GROUPS"]
 
@@ -34,6 +35,8 @@ def _words(name: str, value) -> list:
         return [flag, ",".join(_number(v) for v in value)]
     if isinstance(value, (int, float)):
         return [flag, _number(value)]
+    if not isinstance(value, (str, Path)):  # e.g. a Calibration object given through the Python API
+        raise ValueError(f"{flag} was given as a Python object")
     return [flag, str(value)]
 
 
@@ -52,7 +55,11 @@ def advise_command(recipe: dict | None, region: str, protect: str | None = None)
     """``polarsky advise FRAMES... [options] --region BOX [--protect BOX] --json``, or None."""
     if recipe is None:
         return None
-    words = ["polarsky", "advise", *[str(f) for f in recipe.get("frames", [])], *option_words(recipe["settings"])]
+    try:
+        options = option_words(recipe["settings"])
+    except ValueError:
+        return None
+    words = ["polarsky", "advise", *[str(f) for f in recipe.get("frames", [])], *options]
     words += ["--region", region]
     if protect:
         words += ["--protect", protect]
