@@ -35,4 +35,4 @@ def _print(res: dict) -> None:
                "reading to get the true transmission axis")
     for note in res["notes"]:
         click.echo("note: " + note)
-    click.echo(f"wrote {res['calibration']} (and calibration.json)")
+    click.echo(f"wrote {res['calibration_file']} (and calibration.json)")

@@ -30,6 +30,7 @@ COMMAND_MODULES = dict(
     plan="Plan a shot before the bracket exists (sky darkening, glare).",
     sky="Compare the sky with the clear-sky model.",
     stokes="Stokes maps, DoLP and AoLP with uncertainties.",
+    workbench="A page in your browser: mark the glare, read the angle.",
 )
 
 

@@ -60,8 +60,8 @@ def sky_command(out_dir, as_json, **kw):
 def _print_sky(r: dict, out_dir) -> None:
     click.echo(f"sun: azimuth {r['sun_azimuth_deg']:.1f} deg, elevation {r['sun_elevation_deg']:.1f} deg at "
                f"{r['when']} (NREL SPA)")
-    click.echo(f"frame centre: {r['scattering_angle_centre_deg']:.1f} deg from the sun, predicted DoLP "
-               f"{r['dolp_centre']:.2f} there (dolp_max {r['dolp_max']:.2f}; {r['model_title']} model, "
+    click.echo(f"frame centre: {r['scattering_angle_center_deg']:.1f} deg from the sun, predicted DoLP "
+               f"{r['dolp_center']:.2f} there (dolp_max {r['dolp_max']:.2f}; {r['model_title']} model, "
                f"{r['radiance_model']} sky radiance)")
     _axis(r["best_angle_deg"], r["best_ring_reading_deg"], r,
           "counter-clockwise from the image's horizontal as displayed")

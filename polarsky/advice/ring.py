@@ -179,14 +179,14 @@ def ring_line(reading, result: dict) -> str:
 RING_CALIBRATION_KEYS = ("software_version", "kind", "ring_offset_deg", "ring_offset_sigma_deg", "region_dolp",
                          "region_aolp_ring_deg", "source_aolp_deg", "region", "region_pixels",
                          "region_aolp_spread_deg", "analyzer_angles_deg", "extinction_ratio", "inputs", "meaning",
-                         "notes", "calibration", "warnings", "outputs")
+                         "notes", "calibration_file", "warnings", "outputs")
 
 
 def ring_calibration_result(offset: dict, *, region: str, analyzer_angles_deg, extinction, inputs,
-                            calibration: str) -> dict:
+                            calibration_file: str) -> dict:
     """``calibration.json`` of a ring calibration: the keys of :data:`RING_CALIBRATION_KEYS`.
 
-    ``offset`` from :func:`ring_offset_from_sums`; ``calibration`` the path of the
+    ``offset`` from :func:`ring_offset_from_sums`; ``calibration_file`` the path of the
     ``calibration.nc`` written.
     """
     from .._version import __version__
@@ -201,6 +201,6 @@ def ring_calibration_result(offset: dict, *, region: str, analyzer_angles_deg, e
                      "choose a region of one uniform reflection")
     out = dict(offset, software_version=__version__, kind="ring", region=region,
                analyzer_angles_deg=[float(a) for a in analyzer_angles_deg], extinction_ratio=extinction,
-               inputs=[str(p) for p in inputs], meaning=RING_MEANING, notes=notes, calibration=str(calibration),
+               inputs=[str(p) for p in inputs], meaning=RING_MEANING, notes=notes, calibration_file=str(calibration_file),
                warnings=[], outputs=None)
     return {k: out[k] for k in RING_CALIBRATION_KEYS}

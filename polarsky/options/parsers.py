@@ -278,3 +278,17 @@ def sweep(value, what, base=None, spec=None):
 
 def time_sweep(value, what, base=None, spec=None):
     return syntax.parse_time_sweep(value, what)
+
+
+def port(value, what, base=None, spec=None):
+    v = _num(value, what)
+    if v != int(v) or not 0 <= v <= 65535:
+        raise InputError(f"{what} must be a port number from 0 to 65535 (0: any free port), got {value!r}")
+    return int(v)
+
+
+def host(value, what, base=None, spec=None):
+    s = str(value).strip()
+    if not s or any(ch.isspace() or ch in "/?#@" for ch in s):
+        raise InputError(f"{what} must be an address of this machine such as 127.0.0.1, got {value!r}")
+    return s

@@ -62,12 +62,14 @@ CalibrateSettings = _group("calibrate", "CalibrateSettings")
 DiscoverySettings = _group("discovery", "DiscoverySettings")
 ReportSettings = _group("report", "ReportSettings")
 ClusterSettings = _group("cluster", "ClusterSettings")
+WorkbenchSettings = _group("workbench", "WorkbenchSettings")
 
 #: group name (TOML table) -> settings class
 GROUPS = {"read": ReadSettings, "mosaic": MosaicSettings, "estimate": EstimateSettings, "output": OutputSettings,
           "geometry": GeometrySettings, "sky": SkySettings, "advise": AdviseSettings, "plan": PlanSettings,
           "glare": GlareSettings, "ring": RingSettings, "calibrate": CalibrateSettings,
-          "discovery": DiscoverySettings, "report": ReportSettings, "cluster": ClusterSettings}
+          "discovery": DiscoverySettings, "report": ReportSettings, "cluster": ClusterSettings,
+          "workbench": WorkbenchSettings}
 
 _GROUP_OF = {f.name: g for g, cls in GROUPS.items() for f in fields(cls)}
 
@@ -110,6 +112,7 @@ class Settings:
     discovery: DiscoverySettings = field(default_factory=DiscoverySettings)
     report: ReportSettings = field(default_factory=ReportSettings)
     cluster: ClusterSettings = field(default_factory=ClusterSettings)
+    workbench: WorkbenchSettings = field(default_factory=WorkbenchSettings)
     #: option names given explicitly (not defaults)
     given: frozenset = frozenset()
 

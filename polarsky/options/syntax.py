@@ -84,7 +84,7 @@ def format_angle_list(angles) -> str:
 def parse_number_list(value, what: str, count: int | None = None) -> tuple:
     """Numbers separated by commas (``"1024.5,768"``) or a sequence; ``count`` of them if given.
 
-    >>> parse_number_list("1024.5, 768", "--circle-centre-px", 2)
+    >>> parse_number_list("1024.5, 768", "--circle-center-px", 2)
     (1024.5, 768.0)
     """
     if isinstance(value, (list, tuple, np.ndarray)):

@@ -27,7 +27,7 @@ SUN_ALGORITHM = "NREL SPA (Reda & Andreas 2004) via pvlib, refraction included"
 _SKY_NUMBERS = ("best_angle_deg", "darkening_stops", "darkening_stops_min", "darkening_stops_max",
                 "darkening_stops_range", "darkening_stops_ideal", "darkening_stops_min_ideal",
                 "darkening_stops_max_ideal", "darkening_stops_total", "darkening_stops_examples", "sky_dolp",
-                "sky_aolp_deg", "sky_pixels", "sky_fraction", "scattering_angle_centre_deg", "dolp_centre",
+                "sky_aolp_deg", "sky_pixels", "sky_fraction", "scattering_angle_center_deg", "dolp_center",
                 "sun_in_frame", "antisun_in_frame")
 
 #: Keys of ``plan_sky.json`` (``polarsky plan sky --json``), in order.

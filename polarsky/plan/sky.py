@@ -167,8 +167,8 @@ def plan_at(st: SkySetup, sun: dict, *, yaw_deg=None, words: bool = True) -> Sky
         best angle, with the filter's diattenuation), ``darkening_stops_min`` / ``_max`` /
         ``_range``, their ideal-filter versions, ``darkening_stops_total`` (of the sky's
         summed light), ``darkening_stops_examples`` (ER 30 and 300), ``sky_dolp``,
-        ``sky_aolp_deg``, ``sky_pixels``, ``sky_fraction``, ``scattering_angle_centre_deg``,
-        ``dolp_centre``, ``sun_in_frame``, ``antisun_in_frame``, the region's values (None
+        ``sky_aolp_deg``, ``sky_pixels``, ``sky_fraction``, ``scattering_angle_center_deg``,
+        ``dolp_center``, ``sun_in_frame``, ``antisun_in_frame``, the region's values (None
         without a region) and the unevenness; ``maps``: ``dolp``, ``aolp``,
         ``scattering_angle``, ``sky``, ``darkening_stops`` (NaN outside the sky part),
         ``region``.
@@ -215,8 +215,8 @@ def plan_at(st: SkySetup, sun: dict, *, yaw_deg=None, words: bool = True) -> Sky
         "darkening_stops_examples": {str(er): _stats(darkening_stops(p, m["aolp"], ang, diattenuation=(er - 1) / (er + 1)),
                                                      sky)[0] for er in EXAMPLE_EXTINCTIONS},
         "sky_dolp": best["region_dolp"], "sky_aolp_deg": best["region_aolp_deg"], "sky_pixels": int(sky.sum()),
-        "sky_fraction": round(float(sky.mean()), 4), "scattering_angle_centre_deg": round(scat_c, 3),
-        "dolp_centre": round(dolp_c, 4), "sun_in_frame": _in_frame(st.lens, geom.sun_cam),
+        "sky_fraction": round(float(sky.mean()), 4), "scattering_angle_center_deg": round(scat_c, 3),
+        "dolp_center": round(dolp_c, 4), "sun_in_frame": _in_frame(st.lens, geom.sun_cam),
         "antisun_in_frame": _in_frame(st.lens, -geom.sun_cam), "yaw_deg": yaw,
     }
     nums.update(_region(st, sky, summed, p, m["aolp"], stops))

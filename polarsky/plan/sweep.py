@@ -18,7 +18,7 @@ __all__ = ["sweep_sky", "SWEEP_KEYS", "SWEEP_ROW_KEYS"]
 #: Keys of a sweep (``sweep_time`` / ``sweep_yaw`` of ``plan_sky.json``).
 SWEEP_KEYS = ("rows", "deepest_row", "most_even_row", "summary_text")
 #: Keys of each row (numbers None where the row has a ``note``).
-SWEEP_ROW_KEYS = ("when", "yaw_deg", "sun_azimuth_deg", "sun_elevation_deg", "scattering_angle_centre_deg",
+SWEEP_ROW_KEYS = ("when", "yaw_deg", "sun_azimuth_deg", "sun_elevation_deg", "scattering_angle_center_deg",
                   "best_angle_deg", "best_ring_reading_deg", "darkening_stops", "darkening_stops_min", "darkening_stops_max",
                   "darkening_stops_range", "sun_in_frame", "note")
 

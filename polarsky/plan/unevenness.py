@@ -15,11 +15,11 @@ __all__ = ["describe_unevenness", "where_in_frame", "UNEVENNESS_KEYS"]
 
 #: Keys of :func:`describe_unevenness`.
 UNEVENNESS_KEYS = ("darkening_stops_thirds", "darkening_stops_edges", "darkest_px", "darkest_where",
-                   "band_90_in_frame", "band_90_centre_px", "unevenness_text")
+                   "band_90_in_frame", "band_90_center_px", "unevenness_text")
 
-_COLS = ("left", "centre", "right")
+_COLS = ("left", "center", "right")  # keys (identifiers spell "center", docs/glossary.md)
 _ROWS = ("top", "middle", "bottom")
-_LABELS = {"left": "the left third", "centre": "the centre", "right": "the right third", "top": "the top third",
+_LABELS = {"left": "the left third", "center": "the centre", "right": "the right third", "top": "the top third",
            "middle": "the middle", "bottom": "the bottom third"}
 
 
@@ -32,8 +32,8 @@ def where_in_frame(x, y, w, h) -> str:
     col = _COLS[min(2, max(0, int(3 * (x + 0.5) / w)))]
     row = ("upper", "middle", "lower")[min(2, max(0, int(3 * (y + 0.5) / h)))]
     if row == "middle":
-        return "centre" if col == "centre" else f"{col} side"
-    if col == "centre":
+        return "centre" if col == "center" else f"{col} side"
+    if col == "center":
         return "top centre" if row == "upper" else "bottom centre"
     return f"{row} {col}"
 
@@ -132,9 +132,9 @@ def describe_unevenness(stops, sky, scat) -> dict:
     Returns
     -------
     dict
-        The keys of :data:`UNEVENNESS_KEYS`: ``darkening_stops_thirds`` (left/centre/right
+        The keys of :data:`UNEVENNESS_KEYS`: ``darkening_stops_thirds`` (left/center/right
         and top/middle/bottom means), ``darkening_stops_edges`` (5 % strips), ``darkest_px``
-        and ``darkest_where``, ``band_90_in_frame``, ``band_90_centre_px`` and
+        and ``darkest_where``, ``band_90_in_frame``, ``band_90_center_px`` and
         ``unevenness_text``.
     """
     h, w = sky.shape
@@ -160,5 +160,5 @@ def describe_unevenness(stops, sky, scat) -> dict:
     band_text, band_in, band_px = _band(scat, sky)
     where = where_in_frame(xk, yk, w, h)
     return {"darkening_stops_thirds": thirds, "darkening_stops_edges": edges, "darkest_px": [xk, yk],
-            "darkest_where": where, "band_90_in_frame": band_in, "band_90_centre_px": band_px,
+            "darkest_where": where, "band_90_in_frame": band_in, "band_90_center_px": band_px,
             "unevenness_text": f"{text}; darkest at the {where}; {band_text}"}

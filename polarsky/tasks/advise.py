@@ -9,7 +9,7 @@ from __future__ import annotations
 
 from ._common import collect_warnings, open_source, resolve_settings
 
-__all__ = ["run_advise", "advise_surface"]
+__all__ = ["run_advise", "advice_from_sums", "advise_surface"]
 
 
 def run_advise(frames=(), out_dir=None, settings=None, *, progress: bool = False, **options) -> dict:
@@ -39,10 +39,8 @@ def run_advise(frames=(), out_dir=None, settings=None, *, progress: bool = False
     """
     from ..advice.regions import RegionSink
     from ..advice.ring import is_ring, ring_of_calibration
-    from ..advice.result import advice_result
     from ..core.stokes import diattenuation_from_extinction
     from ..errors import InputError
-    from ..estimate.calibration import applied_analysis
     from ..estimate.runner import run_blocks
     from ..estimate.sinks import PreviewSink
     from ..write.jsonio import write_json
@@ -65,14 +63,10 @@ def run_advise(frames=(), out_dir=None, settings=None, *, progress: bool = False
         preview = PreviewSink(src.shape, max_side=1200)
         run_blocks(src, op.noise, [sink, preview] if out_dir is not None else [sink], progress=progress)
         extinction = settings.estimate.extinction
-        offsets, _ = applied_analysis(op.facts, len(src.channels))
-        result = advice_result(sink.sums, sink.counts, region=adv.region, protect=adv.protect, extinction=extinction,
-                               analyzer_angles_deg=op.facts["analyzer_angles_deg"], inputs=op.inputs,
-                               shifts_px=op.facts.get("shifts_px"), polarizer=op.facts["polarizer"],
-                               angle_offset_deg=float(offsets.mean()), calibration=op.facts.get("calibration"),
-                               ring=ring_of_calibration(op.calibration) if is_ring(op.calibration) else None,
-                               surface=surface, pitch_deg=pitch)
-        result["warnings"] = caught.messages()
+        result = advice_from_sums(sink.sums, sink.counts, op.facts, len(src.channels), region=adv.region,
+                                  protect=adv.protect, extinction=extinction,
+                                  ring=ring_of_calibration(op.calibration) if is_ring(op.calibration) else None,
+                                  surface=surface, pitch_deg=pitch, warnings=caught.messages())
         if out_dir is not None:
             d = 1.0 if extinction is None else diattenuation_from_extinction(extinction)
             with open_stage(out_dir, command="advise", inputs=op.inputs) as stage:
@@ -84,6 +78,49 @@ def run_advise(frames=(), out_dir=None, settings=None, *, progress: bool = False
                 result["outputs"] = sorted(set(stage.outputs()) - before | {"advice.json"})
                 write_json(stage.path("advice.json"), result)
                 stage.publish()
+    return result
+
+
+def advice_from_sums(sums: dict, counts: dict, facts: dict, n_channels: int, *, region, protect=None, extinction=None,
+                     ring=None, surface=None, pitch_deg=None, warnings=()) -> dict:
+    """The advice of ``polarsky advise`` from region sums and the facts of the Stokes estimate.
+
+    What :func:`run_advise` returns for the same sums (it calls this); the workbench calls it
+    with the sums of products it holds in memory (:func:`polarsky.advice.regions.region_sums_in_blocks`).
+
+    Parameters
+    ----------
+    sums, counts : dict
+        Summed Stokes vectors and valid pixel counts under ``"region"`` (and ``"protect"``).
+    facts : dict
+        Facts of the estimate (:func:`polarsky.tasks._common.open_source`, or the attributes
+        of a ``stokes.nc``): ``analyzer_angles_deg``, ``inputs``, ``polarizer``,
+        ``analysis_matrix`` and ``shifts_px``.
+    n_channels : int
+    region, protect : Region
+    extinction : float, optional
+        Filter extinction ratio (None = ideal).
+    ring : dict, optional
+        :func:`polarsky.advice.ring.ring_of_calibration` of a ring calibration: the
+        recommendation is also given as a ring reading.
+    surface : dict, optional
+        The reflecting medium (``--surface``/``--index``): adds the incidence estimated from
+        the region's DoLP (:func:`polarsky.advice.surface.resolve_surface`);
+        ``pitch_deg`` the camera pitch it is compared with.
+    pitch_deg : float, optional
+    warnings : sequence of str
+        The run's warnings, echoed under ``warnings``.
+    """
+    from ..advice.result import advice_result
+    from ..estimate.calibration import applied_analysis
+
+    offsets, _ = applied_analysis(facts, n_channels)
+    result = advice_result(sums, counts, region=region, protect=protect, extinction=extinction,
+                           analyzer_angles_deg=facts["analyzer_angles_deg"], inputs=facts["inputs"],
+                           shifts_px=facts.get("shifts_px"), polarizer=facts.get("polarizer", "front"),
+                           angle_offset_deg=float(offsets.mean()), calibration=facts.get("calibration"),
+                           ring=ring, surface=surface, pitch_deg=pitch_deg)
+    result["warnings"] = list(warnings)
     return result
 
 

@@ -78,7 +78,7 @@ def run_calibrate_ring(frames, out_dir, settings=None, **options) -> dict:
                                        source_aolp_deg=settings.ring.source_aolp_deg)
         result = ring_calibration_result(offset, region=region.text, analyzer_angles_deg=op.facts["analyzer_angles_deg"],
                                          extinction=est.extinction, inputs=op.inputs,
-                                         calibration=Path(out_dir) / FILE_NAME)
+                                         calibration_file=Path(out_dir) / FILE_NAME)
         cal = Calibration(kind="ring", angle_offset_deg=np.array([result["ring_offset_deg"]]),
                           uncertainty={"angle_offset_deg": np.array([result["ring_offset_sigma_deg"]])},
                           attrs={"source_aolp_deg": result["source_aolp_deg"], "region": result["region"],

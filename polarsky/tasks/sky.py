@@ -49,7 +49,7 @@ def lens_of(g, width: int, height: int, *, focal_px=None, focal_mm=None):
 
     return make_lens(g.lens, width, height, hfov_deg=g.hfov_deg, focal_px=g.focal_px if focal_px is None else focal_px,
                      focal_mm=g.focal_mm if focal_mm is None else focal_mm, sensor_width_mm=g.sensor_width_mm,
-                     distortion=g.distortion, fov_deg=g.fov_deg, circle_centre_px=g.circle_centre_px,
+                     distortion=g.distortion, fov_deg=g.fov_deg, circle_center_px=g.circle_center_px,
                      circle_radius_px=g.circle_radius_px)
 
 

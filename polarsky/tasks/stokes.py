@@ -131,7 +131,7 @@ def run_stokes(frames=(), out_dir=None, settings=None, *, progress: bool = False
                 info = run_blocks(src, op.noise, [_Timed(writer), preview, stats], rows=rows, progress=progress)
                 facts = _facts_after(op, info)
                 t1 = time.perf_counter()
-                writer.set_attrs(facts)
+                writer.set_attrs({**facts, "precision": out.precision})
                 writer.commit()
             except BaseException:
                 writer.abort()

@@ -18,6 +18,7 @@ import errno
 import hashlib
 import json
 import os
+import re
 import shutil
 import tempfile
 import time
@@ -28,7 +29,7 @@ from .._version import __version__
 from ..errors import InputError
 
 __all__ = ["OutputStage", "Into", "open_stage", "check_destination", "MARKER", "check_out_dir", "folder_lock",
-           "swap_in", "FolderLock", "listed_files"]
+           "swap_in", "FolderLock", "listed_files", "published_path"]
 
 #: Hidden file that marks a folder written by polarsky (and lists the run's outputs).
 MARKER = ".polarsky-run.json"
@@ -115,6 +116,20 @@ def folder_lock(folder, *, what: str = "--out") -> FolderLock:
 
 def _hidden(out: Path, kind: str) -> Path:
     return out.parent / f".{out.name}.{kind}-{os.getpid()}-{uuid.uuid4().hex[:8]}"
+
+
+_STAGED = re.compile(rf"^\.(?P<name>.+)\.{_STAGING}-\d+-[0-9a-f]{{8}}$")
+
+
+def published_path(path) -> Path:
+    """Where a path that a run recorded inside its staging folder lies once the folder is
+    published (``path`` itself when it is not inside a staging folder).
+
+    >>> str(published_path("/data/.out.polarsky-staging-412-0a1b2c3d/bracket/f_000deg.png"))
+    '/data/out/bracket/f_000deg.png'
+    """
+    parts = Path(path).parts
+    return Path(*[m.group("name") if (m := _STAGED.match(p)) else p for p in parts])
 
 
 def listed_files(folder: Path) -> list:

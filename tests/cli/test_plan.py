@@ -25,9 +25,9 @@ def _json(capsys, args):
 
 def test_plan_sky_json_keys(capsys):
     obj = _json(capsys, ["plan", "sky", *SKY, "--json"])
-    # the keys the plan must give (scattering_angle_centre_deg in the glossary's British spelling)
+    # the keys the plan must give (scattering_angle_center_deg in the glossary's British spelling)
     for k in ("best_angle_deg", "darkening_stops", "darkening_stops_min", "darkening_stops_max", "sun_azimuth_deg",
-              "sun_elevation_deg", "scattering_angle_centre_deg", "unevenness_text", "dolp_max_source",
+              "sun_elevation_deg", "scattering_angle_center_deg", "unevenness_text", "dolp_max_source",
               "radiance_model", "caution"):
         assert obj[k] is not None
 

@@ -52,9 +52,9 @@ def test_centre_dolp_is_rayleigh_closed_form(plan):
     # Single-scattering Rayleigh degree P = dmax sin^2(g) / (1 + cos^2(g)) (Chandrasekhar 1950;
     # project references 2.1: P(60) = 0.6, P(90) = 1 for dmax = 1) at the frame centre's scattering
     # angle; the map at the centre pixels agrees to the pixel's size.
-    g = np.radians(plan.numbers["scattering_angle_centre_deg"])
+    g = np.radians(plan.numbers["scattering_angle_center_deg"])
     p = 0.7 * np.sin(g) ** 2 / (1 + np.cos(g) ** 2)
-    assert plan.numbers["dolp_centre"] == pytest.approx(p, abs=1e-4)
+    assert plan.numbers["dolp_center"] == pytest.approx(p, abs=1e-4)
     centre = plan.maps["dolp"][H // 2 - 1:H // 2 + 1, W // 2 - 1:W // 2 + 1]
     assert float(centre.mean()) == pytest.approx(p, abs=5e-3)
 

@@ -14,7 +14,7 @@ def test_left_to_right_ramp():
     sky = np.ones((h, w), bool)
     r = describe_unevenness(stops, sky, scat)
     t = r["darkening_stops_thirds"]
-    assert t["left"] > t["centre"] > t["right"]
+    assert t["left"] > t["center"] > t["right"]
     assert r["unevenness_text"].startswith("the left third darkens 1.3 stops, the centre 0.8, the right third 0.2")
     assert r["darkest_px"][0] < 5 and r["band_90_in_frame"] is True
     assert "runs top to bottom" in r["unevenness_text"]
@@ -26,7 +26,7 @@ def test_even_sky_and_a_band_beyond_the_edge():
     scat = np.tile(np.linspace(100.0, 130.0, w), (h, 1))    # the whole frame is farther than 90 deg
     r = describe_unevenness(stops, np.ones((h, w), bool), scat)
     assert r["unevenness_text"].startswith("even across the frame")
-    assert r["band_90_in_frame"] is False and r["band_90_centre_px"] is None
+    assert r["band_90_in_frame"] is False and r["band_90_center_px"] is None
     assert "beyond the left edge of the frame (10 deg past it)" in r["unevenness_text"]
 
 

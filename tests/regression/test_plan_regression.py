@@ -24,7 +24,7 @@ def test_demo_site_sky_plan_regression():
     assert r["darkening_stops_max"] == pytest.approx(1.74, abs=0.01)
     assert r["darkening_stops_thirds"]["left"] == pytest.approx(1.15, abs=0.02)
     assert r["darkening_stops_thirds"]["right"] == pytest.approx(0.31, abs=0.02)
-    assert r["scattering_angle_centre_deg"] == pytest.approx(123.5, abs=0.1)
+    assert r["scattering_angle_center_deg"] == pytest.approx(123.5, abs=0.1)
 
 
 def test_demo_harbour_glare_plan_regression():

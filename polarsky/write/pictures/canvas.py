@@ -157,13 +157,31 @@ def compose(tpl: Template, image: np.ndarray) -> np.ndarray:
     return out
 
 
-def write_png(path, rgb: np.ndarray) -> Path:
-    """Encode ``rgb`` (H, W, 3) uint8 as PNG and write it."""
+def hsv_rgb(hue_deg, saturation, value) -> np.ndarray:
+    """(h, w, 3) uint8 RGB of hue (degrees, any range: taken modulo 360), saturation and value
+    (0..1, clipped)."""
     import cv2
 
+    hue = np.mod(np.nan_to_num(np.asarray(hue_deg, np.float32)), np.float32(360.0))
+    sat = np.clip(np.nan_to_num(np.asarray(saturation, np.float32)), 0, 1)
+    val = np.clip(np.nan_to_num(np.asarray(value, np.float32)), 0, 1)
+    rgb = cv2.cvtColor(np.ascontiguousarray(np.stack([hue, sat, val], axis=-1)), cv2.COLOR_HSV2RGB)
+    return np.round(np.clip(rgb, 0, 1) * 255).astype(np.uint8)
+
+
+def encode_png(rgb: np.ndarray) -> bytes:
+    """PNG bytes of an (h, w, 3) RGB or (h, w, 4) RGBA uint8 image (fast compression)."""
+    import cv2
+
+    img = np.ascontiguousarray(rgb[..., [2, 1, 0]] if rgb.shape[2] == 3 else rgb[..., [2, 1, 0, 3]])
     params = [cv2.IMWRITE_PNG_COMPRESSION, 1, cv2.IMWRITE_PNG_STRATEGY, cv2.IMWRITE_PNG_STRATEGY_RLE]
-    ok, buf = cv2.imencode(".png", np.ascontiguousarray(rgb[..., ::-1]), params)
-    if not ok:  # pragma: no cover - OpenCV encodes any uint8 RGB
-        raise OSError(f"cannot encode {path}")
-    Path(path).write_bytes(buf.tobytes())
+    ok, buf = cv2.imencode(".png", img, params)
+    if not ok:  # pragma: no cover - OpenCV encodes any uint8 image
+        raise OSError("cannot encode a PNG picture")
+    return buf.tobytes()
+
+
+def write_png(path, rgb: np.ndarray) -> Path:
+    """Encode ``rgb`` (H, W, 3) uint8 as PNG and write it."""
+    Path(path).write_bytes(encode_png(rgb))
     return Path(path)

@@ -95,16 +95,11 @@ def save_map_png(path, array, *, kind: str, title: str, valid=None, label: str =
 def composite_rgb(s0, dolp, aolp_deg, valid, *, dolp_full: float = DOLP_FULL_SATURATION) -> np.ndarray:
     """HSV picture (h, w, 3) uint8: hue from AoLP, saturation from DoLP (full at ``dolp_full``),
     value from S0 (tone-mapped); pixels not valid checkered."""
-    import cv2
-
-    from .canvas import checker_rgb
+    from .canvas import checker_rgb, hsv_rgb
     from .figure import tone_map
 
-    hue = (np.nan_to_num(np.asarray(aolp_deg, np.float32)) * np.float32(2.0)) % np.float32(360.0)
-    sat = np.clip(np.nan_to_num(np.asarray(dolp, np.float32)) / np.float32(dolp_full), 0, 1)
-    val = tone_map(s0, valid)
-    rgb = cv2.cvtColor(np.ascontiguousarray(np.stack([hue, sat, val], axis=-1)), cv2.COLOR_HSV2RGB)
-    out = np.round(np.clip(rgb, 0, 1) * 255).astype(np.uint8)
+    out = hsv_rgb(np.asarray(aolp_deg, np.float32) * np.float32(2.0),
+                  np.asarray(dolp, np.float32) / np.float32(dolp_full), tone_map(s0, valid))
     out[~valid] = checker_rgb(out.shape[:2])[~valid]
     return out
 
