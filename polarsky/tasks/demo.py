@@ -25,7 +25,7 @@ def run_demo(out_dir, *, progress: bool = False) -> dict:
     from .sky import run_sky
     from .stokes import run_stokes
 
-    with OutputStage(out_dir, command="demo") as stage:
+    with OutputStage(out_dir, command="demo", relocate=True) as stage:
         out = stage.dir
         planned, glare = _plan_first(out)
         scene = hb.render_scene()

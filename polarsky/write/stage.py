@@ -160,6 +160,35 @@ def swap_in(staged: Path, out: Path) -> None:
         shutil.rmtree(old, ignore_errors=True)
 
 
+def relocate_records(staged: Path, out: Path) -> None:
+    """Rewrite paths inside ``staged`` recorded in its files to the same paths under ``out``.
+
+    Text outputs (``.json``, ``.csv``, ``.html``) are rewritten as text (also the JSON-escaped
+    form of the path); NetCDF files have their text attributes rewritten.
+    """
+    old, new = str(staged), str(out)
+    pairs = [(old, new), (json.dumps(old)[1:-1], json.dumps(new)[1:-1])]
+    for p in staged.rglob("*"):
+        if not p.is_file():
+            continue
+        if p.suffix in (".json", ".csv", ".html"):
+            text = p.read_text(encoding="utf-8")
+            if old in text or pairs[1][0] in text:
+                for a, b in pairs:
+                    text = text.replace(a, b)
+                p.write_text(text, encoding="utf-8")
+        elif p.suffix == ".nc":
+            import h5py
+
+            with h5py.File(p, "r+") as f:
+                for k, v in list(f.attrs.items()):
+                    text = v.decode() if isinstance(v, bytes) else v
+                    if isinstance(text, str) and any(a in text for a, _ in pairs):
+                        for a, b in pairs:
+                            text = text.replace(a, b)
+                        f.attrs[k] = text
+
+
 class OutputStage:
     """Write a run's outputs into a staging folder; :meth:`publish` swaps it in whole.
 
@@ -171,14 +200,19 @@ class OutputStage:
         The command writing it (recorded in the marker).
     inputs : sequence of path-like
         The run's inputs (never inside ``out_dir``).
+    relocate : bool
+        The run reads files it wrote into the folder itself (the demo renders its brackets
+        there): on publishing, paths recorded inside the staging folder (in ``.json``,
+        ``.csv``, ``.html`` files and NetCDF attributes) are rewritten to where they will lie.
 
     Use as a context manager: on an exception the staging folder is removed and the earlier
     result stays as it was.
     """
 
-    def __init__(self, out_dir, *, command: str = "", inputs=()):
+    def __init__(self, out_dir, *, command: str = "", inputs=(), relocate: bool = False):
         self.out_dir = check_out_dir(out_dir, inputs=inputs)
         self.command = command
+        self.relocate = relocate
         self.lock = FolderLock(self.out_dir)
         self.lock.acquire()
         try:
@@ -208,6 +242,8 @@ class OutputStage:
         marker = {"command": self.command, "software_version": __version__, "outputs": names,
                   "created": _dt.datetime.now(_dt.timezone.utc).isoformat(timespec="seconds")}
         try:
+            if self.relocate:
+                relocate_records(self.dir, self.out_dir)
             (self.dir / MARKER).write_text(json.dumps(marker, indent=1) + "\n", encoding="utf-8")
             swap_in(self.dir, self.out_dir)
         except OSError as exc:
