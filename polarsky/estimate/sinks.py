@@ -19,6 +19,7 @@ class MemorySink:
 
     def __init__(self, shape, n_channels, names):
         h, w = shape
+        self.needs = frozenset(names)
         self.arrays = {n: np.empty((n_channels, h, w), bool if n == "valid" else np.float32) for n in names}
 
     def write(self, r0, r1, products, frame0):
@@ -36,8 +37,10 @@ class PreviewSink:
 
     NAMES = ("S0", "S1", "S2", "dolp", "dolp_unbiased", "aolp", "valid", "residual", "sigma_dolp", "sigma_aolp")
 
-    def __init__(self, shape, max_side: int = 1024):
+    def __init__(self, shape, max_side: int = 1024, names=None):
         self.step = preview_step(shape, max_side)
+        #: the products kept (default :data:`NAMES`)
+        self.needs = frozenset(self.NAMES if names is None else names)
         self._parts: dict = {}
         self.arrays: dict = {}
 
@@ -45,7 +48,7 @@ class PreviewSink:
         s = self.step
         sel = slice((-r0) % s, r1 - r0, s)
         for name in self.NAMES:
-            if name in products:
+            if name in products and name in self.needs:
                 self._parts.setdefault(name, []).append(products[name][:, sel, ::s].copy())
         f0 = products["S0"] * np.float32(0.5) if frame0 is None else frame0
         self._parts.setdefault("frame0", []).append(f0[:, sel, ::s].copy())
