@@ -10,6 +10,7 @@ from __future__ import annotations
 import numpy as np
 
 from ..core import stokes as sk
+from .._shared.stats import percentile
 
 __all__ = ["MemorySink", "PreviewSink", "StatsSink", "preview_step"]
 
@@ -93,12 +94,13 @@ class StatsSink:
             for j, name in enumerate(("S0", "S1", "S2")):
                 self.sum_s[ci, j] += float(np.sum(products[name][ci][m], dtype=np.float64))
         if "residual" in products:
-            idx = np.arange(r0 * self.width, r1 * self.width)
-            take = (idx % self.stride) == 0
+            c = v.shape[0]
+            take = slice((-r0 * self.width) % self.stride, None, self.stride)  # pixel index % stride == 0
+            res = products["residual"].reshape(c, -1)[:, take]
+            s0 = products["S0"].reshape(c, -1)[:, take]
+            ok = v.reshape(c, -1)[:, take]
             with np.errstate(invalid="ignore", divide="ignore"):
-                rel = (products["residual"] / products["S0"]).reshape(v.shape[0], -1)[:, take]
-            ok = v.reshape(v.shape[0], -1)[:, take]
-            self._res.append(rel[ok])
+                self._res.append(res[ok] / s0[ok])
 
     def summary(self, channels) -> dict:
         n = np.maximum(self.valid, 1)
@@ -125,5 +127,5 @@ class StatsSink:
         rel = np.concatenate(self._res) if self._res else np.zeros(0)
         if rel.size:
             out["median_relative_residual"] = _r(float(np.median(rel)))
-            out["p99_relative_residual"] = _r(float(np.percentile(rel, 99)))
+            out["p99_relative_residual"] = _r(percentile(rel, 99))
         return out

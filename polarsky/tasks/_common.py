@@ -96,6 +96,8 @@ def _open_bracket(frames, settings, cal, noise, compiled) -> Opened:
     from ..write.summary import calibration_facts
 
     est = settings.estimate
+    if compiled is not False:
+        _prefetch_kernels(frames)
     t0 = time.perf_counter()
     bracket = load_bracket(frames, settings.read)
     t_read = time.perf_counter() - t0
@@ -120,6 +122,28 @@ def _open_bracket(frames, settings, cal, noise, compiled) -> Opened:
     }
     return Opened(source=BracketSource(bracket, w, compiled=compiled), noise=noise, facts=facts, bracket=bracket,
                   inputs=facts["inputs"], timing={"read": t_read, "align": t_align})
+
+
+def _prefetch_kernels(frames) -> None:
+    """Load the compiled kernels in the background while the frames are decoded, when the
+    headers say the bracket is large enough to use them (:func:`polarsky.estimate.runner.use_compiled`)."""
+    from pathlib import Path
+
+    from .._shared.prefetch import prefetch
+    from ..estimate.runner import use_compiled
+    from ..read.formats import header_pixels
+
+    files = [f for f in frames if Path(f).is_file()]
+    pixels = [header_pixels(f) for f in files]
+    if not files or None in pixels or not use_compiled(sum(pixels)):
+        return
+
+    def load():
+        from ..core.kernels.dispatch import warm
+
+        warm(len(files))
+
+    prefetch(load)
 
 
 def _open_mosaic(frames, settings, cal, noise, compiled) -> Opened:
