@@ -8,7 +8,7 @@ from __future__ import annotations
 
 from ._shared.registry import Registry
 
-__all__ = ["DEMOSAIC_METHODS", "LENS_MODELS", "SKY_MODELS"]
+__all__ = ["DEMOSAIC_METHODS", "LENS_MODELS", "SKY_MODELS", "RESPONSE_METHODS"]
 
 #: Decoding of a polarization mosaic (``--demosaic``): entries are
 #: :class:`polarsky.mosaic.methods.DemosaicMethod`.
@@ -30,4 +30,11 @@ LENS_MODELS = Registry("lens model", "--lens", {
 SKY_MODELS = Registry("sky model", "--model", {
     "rayleigh": "polarsky.sky.models:RayleighSingleScattering",
     "neutral-points": "polarsky.sky.models:NeutralPointsBerry2004",
+})
+
+#: Recovery of a camera response curve from an exposure series (``calibrate response --method``):
+#: entries are :class:`polarsky.core.response.ResponseMethod`.
+RESPONSE_METHODS = Registry("response method", "--method", {
+    "debevec": "polarsky.core.response:DEBEVEC",
+    "robertson": "polarsky.core.response:ROBERTSON",
 })

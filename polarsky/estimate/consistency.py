@@ -1,0 +1,175 @@
+"""What a bracket says about itself: each frame's relative exposure, and the tone curve.
+
+The analyzer model ``I_k = 1/2 (S0 + D (S1 cos 2theta_k + S2 sin 2theta_k))`` has three
+unknowns per pixel.  With 4 or more analyzer angles it is over-determined, so a gain per
+frame (an exposure that changed between frames) is identifiable from pixels of varied
+polarization: :func:`estimate_exposure` fits ``I_kp = g_k (w_k . S_p)`` by alternating least
+squares on a sample of pixels (``g`` relative to the first frame).
+
+With 5 or more angles the fit can also hold the fourth harmonic ``cos 4theta, sin 4theta``,
+which a linear response never produces.  If the values are ``f(L)`` of the linear light ``L``
+(a tone curve left in the data), a second-order Taylor expansion of ``f`` about the mean
+``m`` of ``L = m (1 + p cos(2theta - phi))`` gives a fourth harmonic along
+``cos(4theta - 2phi)`` of ``f''(m) m^2 p^2 / 4`` beside the second harmonic ``f'(m) m p``, so
+
+    kappa = 4 a4 a0 / a2^2 ~= f f'' / f'^2
+
+(``a0``, ``a2``, ``a4`` the fitted mean, second-harmonic amplitude and fourth-harmonic part
+along the second's phase) is independent of the degree of polarization; it is 0 for a correct
+linearization and ``1 - 1/gamma`` for a residual power law ``L^gamma``.
+:func:`tone_check` reports the median kappa against the intensity level; a curve that leaves
+``|kappa|`` above :data:`KAPPA_WARNING` at some level is evidently wrong there.
+
+References
+----------
+.. [1] E. Collett, *Field Guide to Polarization*, SPIE (2005): Malus's law and the
+   Stokes analyzer equation (the model whose over-determination is used here).
+"""
+
+from __future__ import annotations
+
+import numpy as np
+
+__all__ = ["sample_values", "estimate_exposure", "tone_check", "evidently_wrong", "KAPPA_WARNING", "LEVEL_EDGES"]
+
+#: |kappa| above which the tone curve is evidently wrong at a level (a residual gamma of 1.1).
+KAPPA_WARNING = 0.09
+#: Edges of the intensity levels of the tone check (linear, fraction of full scale).
+LEVEL_EDGES = (0.0, 0.02, 0.05, 0.1, 0.2, 0.4, 0.7, 1.0)
+
+
+def sample_values(bracket, max_pixels: int = 200_000):
+    """Linear values of evenly spaced rows: ``(values (N, C, P) float64, valid (C, P) bool)``."""
+    h, w = bracket.shape
+    rows = np.unique(np.linspace(0, h - 1, max(1, min(h, max_pixels // max(w, 1)))).astype(int))
+    vals, valid = [], []
+    for r in rows:
+        v, inv, _ = bracket.linear_block(int(r), int(r) + 1)
+        vals.append(v[:, :, 0])
+        valid.append(~inv[:, 0])
+    return np.concatenate(vals, axis=-1).astype(np.float64), np.concatenate(valid, axis=-1)
+
+
+def estimate_exposure(values, valid, w, *, iterations: int = 50):
+    """Relative exposure of each frame from the bracket itself.
+
+    Parameters
+    ----------
+    values : ndarray (N, C, P)
+        Linear values (already divided by any exposure applied).
+    valid : ndarray (C, P) bool
+    w : ndarray (C, N, 3)
+        Analysis matrices.
+
+    Returns
+    -------
+    gain : ndarray (N,) or None
+        Gain of each frame relative to the first (None: fewer than 4 frames or too few pixels).
+    sigma : ndarray (N,) or None
+        Standard uncertainty of each gain, from the spread over 4 disjoint pixel subsets.
+    """
+    n = values.shape[0]
+    if n < 4:
+        return None, None
+    v_all, w_all = [], []
+    for c in range(values.shape[1]):
+        keep = valid[c] & (values[:, c].mean(axis=0) > 0.02)
+        v_all.append(values[:, c, keep])
+        w_all.append(np.repeat(np.asarray(w[c], dtype=np.float64)[None], keep.sum(), axis=0))
+    v = np.concatenate(v_all, axis=1)
+    if v.shape[1] < 400:
+        return None, None
+    wm = np.concatenate(w_all, axis=0)  # (P, N, 3)
+
+    def fit(idx):
+        g = np.ones(n)
+        for _ in range(iterations):
+            a = wm[idx] * g[None, :, None]                       # (P, N, 3)
+            s = _solve(a, v[:, idx])
+            pred = np.einsum("pnk,pk->np", wm[idx], s)
+            g_new = (v[:, idx] * pred).sum(axis=1) / np.maximum((pred * pred).sum(axis=1), 1e-30)
+            g_new /= g_new[0]
+            if np.max(np.abs(g_new - g)) < 1e-7:
+                g = g_new
+                break
+            g = g_new
+        return g
+
+    gain = fit(np.arange(v.shape[1]))
+    rng = np.random.default_rng(0)
+    parts = np.array_split(rng.permutation(v.shape[1]), 4)
+    subs = np.stack([fit(p) for p in parts])
+    sigma = subs.std(axis=0, ddof=1) / 2.0
+    return gain, sigma
+
+
+def _solve(a, v):
+    """Per-pixel least squares ``a[p] s[p] = v[:, p]`` for (P, N, 3) ``a``: (P, 3)."""
+    ata = np.einsum("pnk,pnl->pkl", a, a)
+    atb = np.einsum("pnk,np->pk", a, v)
+    return np.linalg.solve(ata + 1e-12 * np.eye(3), atb[..., None])[..., 0]
+
+
+def tone_check(values, valid, w, *, min_pixels: int = 300, min_dolp: float = 0.15):
+    """The fourth-harmonic curvature ``kappa`` of the fit residual against intensity level.
+
+    Parameters
+    ----------
+    values : ndarray (N, C, P)
+    valid : ndarray (C, P) bool
+    w : ndarray (C, N, 3)
+        Analysis matrices (their angles and diattenuation are used).
+    min_pixels : int
+        Levels with fewer usable pixels report no kappa.
+    min_dolp : float
+        Pixels less polarized than this are not used (kappa's noise grows as 1/DoLP^2).
+
+    Returns
+    -------
+    dict or None
+        ``levels`` (``[lo, hi]`` of each level), ``pixels``, ``curvature`` (median kappa or
+        None), ``curvature_sigma``; None when the angles cannot resolve the fourth harmonic
+        (fewer than 5 distinct angles).
+    """
+    w = np.asarray(w, dtype=np.float64)
+    out_k, out_s, out_n = [], [], []
+    kap_all, lvl_all = [], []
+    for c in range(values.shape[1]):
+        theta = 0.5 * np.arctan2(w[c, :, 2], w[c, :, 1])
+        x = np.stack([np.ones_like(theta), np.cos(2 * theta), np.sin(2 * theta), np.cos(4 * theta),
+                      np.sin(4 * theta)], axis=1)
+        if x.shape[0] < 5 or np.linalg.cond(x) > 1e3:
+            return None
+        coef = np.linalg.lstsq(x, values[:, c, valid[c]], rcond=None)[0]
+        a0 = coef[0]
+        a2 = np.hypot(coef[1], coef[2])
+        phi = np.arctan2(coef[2], coef[1])
+        a4 = coef[3] * np.cos(2 * phi) + coef[4] * np.sin(2 * phi)
+        use = (a0 > 0) & (a2 > min_dolp * a0)
+        kap_all.append(4 * a4[use] * a0[use] / a2[use] ** 2)
+        lvl_all.append(a0[use])
+    kap, lvl = np.concatenate(kap_all), np.concatenate(lvl_all)
+    for lo, hi in zip(LEVEL_EDGES[:-1], LEVEL_EDGES[1:]):
+        k = kap[(lvl >= lo) & (lvl < hi)]
+        out_n.append(int(k.size))
+        if k.size < min_pixels:
+            out_k.append(None)
+            out_s.append(None)
+            continue
+        med = float(np.median(k))
+        mad = float(np.median(np.abs(k - med))) * 1.4826
+        out_k.append(round(med, 4))
+        out_s.append(round(1.2533 * mad / np.sqrt(k.size), 4))
+    return {"levels": [[lo, hi] for lo, hi in zip(LEVEL_EDGES[:-1], LEVEL_EDGES[1:])], "pixels": out_n,
+            "curvature": out_k, "curvature_sigma": out_s}
+
+
+def evidently_wrong(check) -> list:
+    """Levels ``[lo, hi, kappa]`` where the tone check says the curve is evidently wrong."""
+    if check is None:
+        return []
+    bad = []
+    for (lo, hi), k, s in zip(check["levels"], check["curvature"], check["curvature_sigma"]):
+        if k is not None and abs(k) > KAPPA_WARNING and abs(k) > 4 * s:
+            bad.append([lo, hi, k])
+    return bad
