@@ -32,9 +32,9 @@ SKY_MODELS = Registry("sky model", "--model", {
     "neutral-points": "polarsky.sky.models:NeutralPointsBerry2004",
 })
 
-#: Recovery of a camera response curve from an exposure series (``calibrate response --method``):
+#: Recovery of a camera response curve from an exposure series (``calibrate response --response-method``):
 #: entries are :class:`polarsky.core.response.ResponseMethod`.
-RESPONSE_METHODS = Registry("response method", "--method", {
+RESPONSE_METHODS = Registry("response method", "--response-method", {
     "debevec": "polarsky.core.response:DEBEVEC",
     "robertson": "polarsky.core.response:ROBERTSON",
 })

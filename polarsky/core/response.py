@@ -77,11 +77,19 @@ def normalize_response(curve) -> np.ndarray:
     >>> normalize_response(np.array([[0.0], [2.0], [1.0], [4.0]]).repeat(64, 0)).shape
     (1, 256)
     """
-    c = np.asarray(curve, dtype=np.float64).reshape(256, -1).T
-    if not np.all(np.isfinite(c)) or np.any(c[:, -1] <= 0):
-        raise InputError("the response recovery gave no usable curve; shoot the series with more exposures that "
-                         "overlap (each code value seen in several frames)")
+    c = np.asarray(curve, dtype=np.float64).reshape(256, -1).T.copy()
+    codes = np.arange(256)
+    for row in c:
+        ok = np.isfinite(row) & (row >= 0)
+        if ok.sum() < 32:
+            raise InputError("the response recovery gave no usable curve; shoot the series with more exposures that "
+                             "overlap (each code value seen in several frames)")
+        # codes the series never showed: interpolated, and the black end towards 0
+        row[:] = np.interp(codes, np.r_[0, codes[ok]] if not ok[0] else codes[ok], np.r_[0.0, row[ok]] if not ok[0]
+                           else row[ok])
     c = np.maximum.accumulate(np.clip(c, 0, None), axis=1)
+    if np.any(c[:, -1] <= 0):
+        raise InputError("the response recovery gave no usable curve; shoot the series with brighter exposures")
     return (c / c[:, -1:]).astype(np.float32)
 
 
@@ -122,7 +130,7 @@ def response_debevec1997(images, exposures_s, *, samples: int = 70, smoothness: 
     """
     import cv2
 
-    cal = cv2.createCalibrateDebevec(samples=int(samples), _lambda=float(smoothness), random=False)
+    cal = cv2.createCalibrateDebevec(int(samples), float(smoothness), False)
     times = np.asarray(exposures_s, dtype=np.float32)
     return np.asarray(cal.process(_as_bgr8(images), times), dtype=np.float64).reshape(256, 3)
 

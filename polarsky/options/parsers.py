@@ -179,6 +179,14 @@ def bit_depth(value, what, base=None, spec=None):
     return v
 
 
+def exposures(value, what, base=None, spec=None):
+    """Positive exposure times in seconds, separated by commas."""
+    vals = syntax.parse_number_list(value, what)
+    for v in vals:
+        check_positive(v, what)
+    return vals
+
+
 def orientation(value, what, base=None, spec=None):
     """``auto`` or an EXIF/TIFF Orientation value 1..8."""
     s = str(value).strip().lower()
