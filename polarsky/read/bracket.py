@@ -143,6 +143,8 @@ class Bracket:
             sat = raw >= SATURATION_FRACTION * fr.full_scale
             floating = raw.dtype.kind == "f"
             blk = raw <= 0 if floating else raw == 0
+            if floating:
+                sat &= np.isfinite(raw)  # NaN and inf are not valid, counted apart
             c0, c1 = (0, h) if count_rows is None else (count_rows[0] - r0, count_rows[1] - r0)
             counts[k, 0] = int(sat[:, c0:c1].sum())
             counts[k, 1] = int(blk[:, c0:c1].sum())

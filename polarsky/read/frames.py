@@ -55,6 +55,8 @@ class Frame:
         The orientation applied to :attr:`data` (1 = stored layout).
     bits : int
         Bits per sample of the file (8, 16, 32, ...; 16 for raw files decoded by LibRaw).
+    floating : bool
+        Floating-point samples (full scale from ``float_scale``; NaN and inf not valid).
     """
 
     path: Path
@@ -67,6 +69,7 @@ class Frame:
     orientation: int = 1
     displayed: int = 1
     bits: int = 16
+    floating: bool = False
 
 
 def _check_path(path: Path, what: str) -> None:
@@ -127,6 +130,7 @@ def read_frame(path, *, transfer: str = "auto", max_pixels: int = DEFAULT_MAX_PI
                          "raise it with --max-pixels")
     full_scale = _full_scale(path, data, info, bit_depth, float_scale)
     integer = data.dtype.kind in "ui"
+    floating = data.dtype.kind == "f"
     encoding = transfer if transfer != "auto" else ("srgb" if (kind == "image" and data.dtype == np.uint8) else "linear")
     meta = read_metadata(path)
     own = from_libraw_flip(flip) if kind == "raw" else int(meta.get("orientation", 1))
@@ -140,7 +144,7 @@ def read_frame(path, *, transfer: str = "auto", max_pixels: int = DEFAULT_MAX_PI
         data = data.astype(np.float32)
     return Frame(path=path, data=to_display(data, shown), full_scale=full_scale, encoding=encoding,
                  exposure=relative_exposure(meta), meta=meta, kind=kind, orientation=own, displayed=shown,
-                 bits=int(info.get("bits", 8 * data.dtype.itemsize)))
+                 bits=int(info.get("bits", 8 * data.dtype.itemsize)), floating=floating)
 
 
 def _full_scale(path, data, info, bit_depth, float_scale) -> float:

@@ -66,9 +66,9 @@ def _read_counts(path: Path):
         return counts, black, white, "dng"
     try:
         if suffix in (".tif", ".tiff"):
-            import tifffile
+            from .tiff import read_tiff
 
-            counts = tifffile.imread(str(path))
+            counts, _ = read_tiff(path, what="mosaic frame")
         elif suffix == ".png":
             import cv2
 
