@@ -3,8 +3,8 @@
 The analyzer model ``I_k = 1/2 (S0 + D (S1 cos 2theta_k + S2 sin 2theta_k))`` has three
 unknowns per pixel.  With 4 or more analyzer angles it is over-determined, so a gain per
 frame (an exposure that changed between frames) is identifiable from pixels of varied
-polarization: :func:`estimate_exposure` fits ``I_kp = g_k (w_k . S_p)`` by alternating least
-squares on a sample of pixels (``g`` relative to the first frame).
+polarization: :func:`estimate_exposure` fits ``I_kp = g_k (w_k . S_p)`` on a sample of pixels
+(``g`` relative to the first frame) in closed form.
 
 With 5 or more angles the fit can also hold the fourth harmonic ``cos 4theta, sin 4theta``,
 which a linear response never produces.  If the values are ``f(L)`` of the linear light ``L``
@@ -50,8 +50,13 @@ def sample_values(bracket, max_pixels: int = 200_000):
     return np.concatenate(vals, axis=-1).astype(np.float64), np.concatenate(valid, axis=-1)
 
 
-def estimate_exposure(values, valid, w, *, iterations: int = 50):
+def estimate_exposure(values, valid, w):
     """Relative exposure of each frame from the bracket itself.
+
+    With ``h_k = 1/g_k`` the model ``h_k I_kp = w_k . S_p`` is linear: eliminating ``S_p``
+    leaves ``P diag(I_p) h = 0`` for every pixel, ``P = 1 - W W^+`` the projector off the
+    analysis matrix's columns, so ``h`` minimizes ``h^T M h`` with ``M = P o sum_p I_p I_p^T``
+    (element-wise product), subject to ``h_0 = 1``: one small linear solve.
 
     Parameters
     ----------
@@ -71,43 +76,33 @@ def estimate_exposure(values, valid, w, *, iterations: int = 50):
     n = values.shape[0]
     if n < 4:
         return None, None
-    v_all, w_all = [], []
+    w = np.asarray(w, dtype=np.float64)
+    parts = []
     for c in range(values.shape[1]):
         keep = valid[c] & (values[:, c].mean(axis=0) > 0.02)
-        v_all.append(values[:, c, keep])
-        w_all.append(np.repeat(np.asarray(w[c], dtype=np.float64)[None], keep.sum(), axis=0))
-    v = np.concatenate(v_all, axis=1)
-    if v.shape[1] < 400:
+        wc = w[min(c, w.shape[0] - 1)]
+        proj = np.eye(n) - wc @ np.linalg.pinv(wc)
+        parts.append((proj, values[:, c, keep]))
+    if sum(v.shape[1] for _, v in parts) < 400:
         return None, None
-    wm = np.concatenate(w_all, axis=0)  # (P, N, 3)
 
-    def fit(idx):
-        g = np.ones(n)
-        for _ in range(iterations):
-            a = wm[idx] * g[None, :, None]                       # (P, N, 3)
-            s = _solve(a, v[:, idx])
-            pred = np.einsum("pnk,pk->np", wm[idx], s)
-            g_new = (v[:, idx] * pred).sum(axis=1) / np.maximum((pred * pred).sum(axis=1), 1e-30)
-            g_new /= g_new[0]
-            if np.max(np.abs(g_new - g)) < 1e-7:
-                g = g_new
-                break
-            g = g_new
-        return g
+    def solve(select):
+        m = np.zeros((n, n))
+        for (proj, v), idx in zip(parts, select):
+            vv = v[:, idx]
+            m += proj * (vv @ vv.T)
+        h = np.ones(n)
+        h[1:] = np.linalg.solve(m[1:, 1:], -m[1:, 0])
+        return 1.0 / h
 
-    gain = fit(np.arange(v.shape[1]))
+    gain = solve([slice(None)] * len(parts))
     rng = np.random.default_rng(0)
-    parts = np.array_split(rng.permutation(v.shape[1]), 4)
-    subs = np.stack([fit(p) for p in parts])
+    splits = [np.array_split(rng.permutation(v.shape[1]), 4) for _, v in parts]
+    subs = np.stack([solve([sp[i] for sp in splits]) for i in range(4)])
     sigma = subs.std(axis=0, ddof=1) / 2.0
+    if not np.all(np.isfinite(gain)) or np.any(gain <= 0):
+        return None, None
     return gain, sigma
-
-
-def _solve(a, v):
-    """Per-pixel least squares ``a[p] s[p] = v[:, p]`` for (P, N, 3) ``a``: (P, 3)."""
-    ata = np.einsum("pnk,pnl->pkl", a, a)
-    atb = np.einsum("pnk,np->pk", a, v)
-    return np.linalg.solve(ata + 1e-12 * np.eye(3), atb[..., None])[..., 0]
 
 
 def tone_check(values, valid, w, *, min_pixels: int = 300, min_dolp: float = 0.15):
