@@ -95,10 +95,13 @@ def estimate_exposure(values, valid, w):
         h[1:] = np.linalg.solve(m[1:, 1:], -m[1:, 0])
         return 1.0 / h
 
-    gain = solve([slice(None)] * len(parts))
     rng = np.random.default_rng(0)
     splits = [np.array_split(rng.permutation(v.shape[1]), 4) for _, v in parts]
-    subs = np.stack([solve([sp[i] for sp in splits]) for i in range(4)])
+    try:
+        gain = solve([slice(None)] * len(parts))
+        subs = np.stack([solve([sp[i] for sp in splits]) for i in range(4)])
+    except np.linalg.LinAlgError:  # a scene of one polarization state: gains not identifiable
+        return None, None
     sigma = subs.std(axis=0, ddof=1) / 2.0
     if not np.all(np.isfinite(gain)) or np.any(gain <= 0):
         return None, None
