@@ -180,11 +180,16 @@ def bit_depth(value, what, base=None, spec=None):
 
 
 def exposures(value, what, base=None, spec=None):
-    """Positive exposure times in seconds, separated by commas."""
-    vals = syntax.parse_number_list(value, what)
-    for v in vals:
-        check_positive(v, what)
-    return vals
+    """Positive exposure times in seconds, separated by commas; ``1/250`` as cameras show them."""
+    items = list(value) if isinstance(value, (list, tuple)) else [t.strip() for t in str(value).split(",")]
+    vals = []
+    for t in items:
+        if isinstance(t, str) and t.count("/") == 1:
+            num, den = (_num(x, what) for x in t.split("/"))
+            vals.append(check_positive(num, what) / check_positive(den, what))
+        else:
+            vals.append(check_positive(_num(t, what), what))
+    return tuple(vals)
 
 
 def orientation(value, what, base=None, spec=None):
