@@ -105,6 +105,12 @@ def _as_bgr8(images):
     return out
 
 
+def _process(calibrator, images, exposures_s) -> np.ndarray:
+    """Run an OpenCV response calibrator: (256, 3) relative linear exposure of each code."""
+    times = np.asarray(exposures_s, dtype=np.float32)
+    return np.asarray(calibrator.process(_as_bgr8(images), times), dtype=np.float64).reshape(256, 3)
+
+
 def response_debevec1997(images, exposures_s, *, samples: int = 70, smoothness: float = 10.0) -> np.ndarray:
     """Inverse camera response by Debevec & Malik (1997), through ``cv2.createCalibrateDebevec``.
 
@@ -130,9 +136,7 @@ def response_debevec1997(images, exposures_s, *, samples: int = 70, smoothness: 
     """
     import cv2
 
-    cal = cv2.createCalibrateDebevec(int(samples), float(smoothness), False)
-    times = np.asarray(exposures_s, dtype=np.float32)
-    return np.asarray(cal.process(_as_bgr8(images), times), dtype=np.float64).reshape(256, 3)
+    return _process(cv2.createCalibrateDebevec(int(samples), float(smoothness), False), images, exposures_s)
 
 
 def response_robertson2003(images, exposures_s, *, max_iter: int = 30, threshold: float = 0.01) -> np.ndarray:
@@ -151,7 +155,8 @@ def response_robertson2003(images, exposures_s, *, max_iter: int = 30, threshold
     Returns
     -------
     ndarray, shape (256, 3), float64
-        Relative linear exposure of each code (arbitrary scale).
+        The maximum-likelihood inverse response: relative linear exposure of each code, in
+        the scale the optimization fixed (arbitrary).
 
     References
     ----------
@@ -160,9 +165,8 @@ def response_robertson2003(images, exposures_s, *, max_iter: int = 30, threshold
     """
     import cv2
 
-    cal = cv2.createCalibrateRobertson(max_iter=int(max_iter), threshold=float(threshold))
-    times = np.asarray(exposures_s, dtype=np.float32)
-    return np.asarray(cal.process(_as_bgr8(images), times), dtype=np.float64).reshape(256, 3)
+    return _process(cv2.createCalibrateRobertson(max_iter=int(max_iter), threshold=float(threshold)), images,
+                    exposures_s)
 
 
 DEBEVEC = ResponseMethod("debevec", "Debevec & Malik 1997, Proc. SIGGRAPH 97, 369-378 (doi:10.1145/258734.258884)",

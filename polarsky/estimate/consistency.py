@@ -22,7 +22,10 @@ linearization and ``1 - 1/gamma`` for a residual power law ``L^gamma``.
 
 References
 ----------
-.. [1] E. Collett, *Field Guide to Polarization*, SPIE (2005): Malus's law and the
+.. [1] G. H. Golub, C. F. Van Loan, "An analysis of the total least squares problem",
+   SIAM J. Numer. Anal. 17(6), 883-893 (1980), doi:10.1137/0717073 (the smallest
+   generalized eigenvector as the errors-in-variables estimate).
+.. [2] E. Collett, *Field Guide to Polarization*, SPIE (2005): Malus's law and the
    Stokes analyzer equation (the model whose over-determination is used here).
 """
 
@@ -55,8 +58,12 @@ def estimate_exposure(values, valid, w):
 
     With ``h_k = 1/g_k`` the model ``h_k I_kp = w_k . S_p`` is linear: eliminating ``S_p``
     leaves ``P diag(I_p) h = 0`` for every pixel, ``P = 1 - W W^+`` the projector off the
-    analysis matrix's columns, so ``h`` minimizes ``h^T M h`` with ``M = P o sum_p I_p I_p^T``
-    (element-wise product), subject to ``h_0 = 1``: one small linear solve.
+    analysis matrix's columns, so ``h`` makes ``h^T M h`` small, ``M = P o sum_p I_p I_p^T``
+    (element-wise product).  Noise in ``I`` adds ``D = diag(P_kk sum_p var(I_kp))`` to ``M``;
+    the estimate free of that bias (total least squares) is the generalized eigenvector of
+    ``(M, D)`` with the smallest eigenvalue [1]_, scaled to ``h_0 = 1``.  The variance is
+    first taken proportional to the value (photon noise), then ``a + b I`` fitted to the
+    residuals of that first estimate (read and photon noise), and the estimate repeated.
 
     Parameters
     ----------
@@ -86,20 +93,42 @@ def estimate_exposure(values, valid, w):
     if sum(v.shape[1] for _, v in parts) < 400:
         return None, None
 
-    def solve(select):
+    def solve(select, noise=(0.0, 1.0)):
+        from scipy.linalg import eigh
+
+        a, b = noise
         m = np.zeros((n, n))
+        d = np.zeros(n)
         for (proj, v), idx in zip(parts, select):
             vv = v[:, idx]
             m += proj * (vv @ vv.T)
-        h = np.ones(n)
-        h[1:] = np.linalg.solve(m[1:, 1:], -m[1:, 0])
-        return 1.0 / h
+            d += np.diag(proj) * (a * vv.shape[1] + b * vv.sum(axis=1))
+        # noise of variance a + b I adds D = diag(P_kk sum_p var_kp) to M: the consistent
+        # estimate is the generalized eigenvector of (M, D) with the smallest eigenvalue
+        _, vecs = eigh(m, np.diag(np.maximum(d, 1e-12 * d.max())))
+        return vecs[:, 0] / vecs[0, 0]
+
+    def noise_model(h):
+        """Variance ``a + b I`` fitted to the per-pixel residuals at ``h`` (read and photon noise)."""
+        lv, ev = [], []
+        for proj, v in parts:
+            r = proj @ (v * h[:, None])
+            ev.append((r * r).sum(axis=0) / max(float(np.trace(proj @ np.diag(h * h) @ proj)), 1e-12))
+            lv.append(v.mean(axis=0))
+        lv, ev = np.concatenate(lv), np.concatenate(ev)
+        x = np.stack([np.ones_like(lv), lv], axis=1)
+        coef = np.linalg.lstsq(x, ev, rcond=None)[0]
+        return max(float(coef[0]), 0.0), max(float(coef[1]), 0.0) + 1e-12
+
+    def gains(select):
+        h = solve(select)
+        return 1.0 / solve(select, noise_model(h))
 
     rng = np.random.default_rng(0)
     splits = [np.array_split(rng.permutation(v.shape[1]), 4) for _, v in parts]
     try:
-        gain = solve([slice(None)] * len(parts))
-        subs = np.stack([solve([sp[i] for sp in splits]) for i in range(4)])
+        gain = gains([slice(None)] * len(parts))
+        subs = np.stack([gains([sp[i] for sp in splits]) for i in range(4)])
     except np.linalg.LinAlgError:  # a scene of one polarization state: gains not identifiable
         return None, None
     sigma = subs.std(axis=0, ddof=1) / 2.0

@@ -24,13 +24,9 @@ FORMAT_VERSION = "1"
 
 def find_response(path):
     """The response curve named by ``--response`` (the file, or the folder holding it), read."""
-    p = Path(path)
-    if p.is_dir():
-        p = p / FILE_NAME
-    if not p.is_file():
-        raise InputError(f"response curve {path} does not exist; give the {FILE_NAME} (or the folder) written by "
-                         "'polarsky calibrate response'")
-    return read_response(p)
+    from .formats import file_in_folder
+
+    return read_response(file_in_folder(path, FILE_NAME, what="response curve", maker="polarsky calibrate response"))
 
 
 def read_response(path):
