@@ -35,6 +35,9 @@ import numpy as np
 
 __all__ = ["sample_values", "estimate_exposure", "tone_check", "evidently_wrong", "KAPPA_WARNING", "LEVEL_EDGES"]
 
+#: Ratio of the second-smallest to the smallest generalized eigenvalue below which per-frame
+#: gains are not identifiable (another set of gains fits the bracket about as well).
+SEPARATION = 30.0
 #: |kappa| above which the tone curve is evidently wrong at a level (a residual gamma of 1.1).
 KAPPA_WARNING = 0.09
 #: Edges of the intensity levels of the tone check (linear, fraction of full scale).
@@ -105,7 +108,12 @@ def estimate_exposure(values, valid, w):
             d += np.diag(proj) * (a * vv.shape[1] + b * vv.sum(axis=1))
         # noise of variance a + b I adds D = diag(P_kk sum_p var_kp) to M: the consistent
         # estimate is the generalized eigenvector of (M, D) with the smallest eigenvalue
-        _, vecs = eigh(m, np.diag(np.maximum(d, 1e-12 * d.max())))
+        lam, vecs = eigh(m, np.diag(np.maximum(d, 1e-12 * d.max())))
+        lam = np.maximum(lam, 0.0)
+        if not lam[1] > SEPARATION * max(lam[0], 1e-9 * lam[-1]):
+            # a second solution fits (nearly) as well: the scene shows too few kinds of
+            # polarization for the gains to be told from the Stokes parameters
+            raise np.linalg.LinAlgError("gains not identifiable")
         return vecs[:, 0] / vecs[0, 0]
 
     def noise_model(h):

@@ -22,7 +22,7 @@ from pathlib import Path
 
 import numpy as np
 
-from ..conventions import SATURATION_FRACTION
+from ..conventions import SATURATION_FRACTION, SRGB_NOTE
 from ..core.stokes import check_angles
 from ..core.transfer import srgb_lut, srgb_to_linear
 from ..errors import InputError, PolarskyWarning
@@ -303,9 +303,7 @@ def _linearization(loaded, read) -> None:
         for fr in loaded:
             fr.encoding = "response"
     elif eight and read.transfer == "auto":
-        warnings.warn("8-bit frames were linearized by the assumed sRGB curve; a camera's own tone curve can bias "
-                      "DoLP (measure it with 'polarsky calibrate response' and give --response)",
-                      PolarskyWarning, stacklevel=3)
+        warnings.warn(SRGB_NOTE, PolarskyWarning, stacklevel=3)
 
 
 def _display(loaded, read):

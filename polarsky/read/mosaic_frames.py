@@ -18,7 +18,7 @@ from pathlib import Path
 
 import numpy as np
 
-from ..conventions import SATURATION_FRACTION, TRANSFERS
+from ..conventions import SATURATION_FRACTION, SRGB_NOTE, TRANSFERS
 from ..core.transfer import srgb_to_linear
 from ..errors import InputError, PolarskyWarning
 from .formats import MOSAIC_SUFFIXES, check_complete
@@ -228,6 +228,8 @@ def read_mosaic_stack(frames, *, bit_depth=None, black_level=None, transfer="aut
                           f"in {f.name} were masked", PolarskyWarning, stacklevel=2)
     acc /= np.float32(len(frames))
     first = infos[0]
+    if str(transfer).lower() == "auto" and first["transfer"] == "srgb":
+        warnings.warn(SRGB_NOTE, PolarskyWarning, stacklevel=2)
     info = {
         "files": [i["file"] for i in infos],
         "n_frames": len(frames),

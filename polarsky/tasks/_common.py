@@ -174,8 +174,8 @@ def _self_checks(bracket, w, settings) -> dict:
                           "relative to the first); check the exposure settings, or give --exposure auto to use "
                           "the bracket's estimate", PolarskyWarning, stacklevel=3)
     elif settings.read.exposure == "auto":
-        raise InputError("--exposure auto: too few valid, lit pixels to estimate each frame's exposure; give "
-                         "exposure_s in a --manifest")
+        raise InputError("--exposure auto: the bracket does not pin down each frame's exposure (too few lit pixels, "
+                         "or too few kinds of polarization in the scene); give exposure_s in a --manifest")
     check = tone_check(values, valid, w)
     out["response_check"] = check
     bad = evidently_wrong(check)

@@ -115,3 +115,19 @@ def test_camera_s_curve_jpegs_warned_by_the_tone_check(tmp_path):
     assert "assumed sRGB curve is evidently wrong" in said
     assert "assumed sRGB curve; a camera's own tone curve" in said
     assert decode_attrs(ds.attrs)["response_check"]["curvature"]
+
+
+def test_one_kind_of_polarization_pins_down_no_gains(tmp_path):
+    # Every pixel with the same DoLP and AoLP: a gain per frame is indistinguishable from a
+    # different polarization state, so there is no estimate and --exposure auto is refused.
+    rng = np.random.default_rng(2)
+    base = 0.2 + 0.6 * rng.random((30, 40))
+    s = np.stack([base, 0.3 * base, -0.1 * base])[:, None]
+    angles = [0, 45, 90, 135]
+    frames = render_frames(s, angles, noise=0.001) * np.array([1, 0.8, 1.1, 1.0])[:, None, None, None]
+    v = _flat(frames)
+    g, sigma = estimate_exposure(v, np.ones(v.shape[1:], bool), analysis_matrix(np.asarray(angles, float))[None])
+    assert g is None and sigma is None
+    paths = _tiffs(tmp_path, frames, angles, stem="u")
+    with pytest.raises(InputError, match="--exposure auto: the bracket does not pin down each frame's exposure"):
+        stokes_from_files(paths, exposure="auto")
