@@ -9,7 +9,7 @@ from polarsky.write.jsonio import print_json
 from .options import frames_command, pop_settings
 
 GROUPS = ("read", "calibrate")
-INCLUDE = ("max_pixels", "orientation", "exposures", "response_method")
+INCLUDE = ("max_pixels", "exposures", "response_method")
 
 
 def _exclude():

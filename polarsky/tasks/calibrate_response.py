@@ -27,8 +27,7 @@ def run_calibrate_response(frames, out_dir, settings=None, **options) -> dict:
         at several exposure times, no filter turned between them.
     out_dir : path
     settings : Settings, optional
-        ``exposures`` (seconds per frame; default EXIF), ``response_method``, ``max_pixels``,
-        ``orientation``.
+        ``exposures`` (seconds per frame; default EXIF), ``response_method``, ``max_pixels``.
 
     Returns
     -------
@@ -49,8 +48,8 @@ def run_calibrate_response(frames, out_dir, settings=None, **options) -> dict:
     check_out_dir(out_dir, inputs=files)
     method = registries.RESPONSE_METHODS.get(cal.response_method)
     with collect_warnings() as caught:
-        loaded = [read_frame(f, transfer="linear", max_pixels=rd.max_pixels,
-                             orientation=rd.orientation) for f in files]
+        # the stored layout: a curve is per code value, and tags flipping within a series do not matter
+        loaded = [read_frame(f, transfer="linear", max_pixels=rd.max_pixels, orientation=None) for f in files]
         for fr in loaded:
             if fr.data.dtype != np.uint8:
                 raise InputError(f"frame {fr.path} has {fr.bits}-bit values; a response curve is made from the "
