@@ -230,6 +230,13 @@ def read_mosaic_stack(frames, *, bit_depth=None, black_level=None, transfer="aut
     first = infos[0]
     if str(transfer).lower() == "auto" and first["transfer"] == "srgb":
         warnings.warn(SRGB_NOTE, PolarskyWarning, stacklevel=2)
+    from .exif import read_metadata
+
+    tag = read_metadata(frames[0]).get("orientation", 1)
+    if tag != 1:
+        warnings.warn(f"{frames[0].name} says it is shown with orientation {tag}, but mosaic frames are decoded and "
+                      "mapped in the sensor's own layout: the maps and their angles are on the sensor's layout, not "
+                      "the displayed one", PolarskyWarning, stacklevel=2)
     info = {
         "files": [i["file"] for i in infos],
         "n_frames": len(frames),

@@ -161,3 +161,12 @@ def test_bad_orientation_value_is_one_line_error():
 
     with pytest.raises(InputError, match="--orientation '9' must be auto or an orientation 1..8"):
         Settings.from_options({"orientation": "9"})
+
+
+def test_mosaic_frame_with_an_orientation_tag_says_its_maps_stay_in_sensor_layout(tmp_path):
+    from polarsky.read.mosaic_frames import read_mosaic_stack
+
+    p = write_tiff(tmp_path / "m.tif", np.full((1, 8, 8), 20000, np.uint16), orientation=6)
+    with pytest.warns(PolarskyWarning, match="m.tif says it is shown with orientation 6, but mosaic frames"):
+        stack = read_mosaic_stack([p])
+    assert stack.values.shape == (8, 8)
