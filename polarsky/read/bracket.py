@@ -310,14 +310,13 @@ def _display(loaded, read):
     """Turn every frame to one display orientation; return it and the map of the given angles."""
     from .orientation import ANGLE_MAP, ORIENTATION_NAMES, describe, to_display
 
-    tags = [fr.orientation for fr in loaded]
     if read.orientation == "auto":
-        chosen = tags[0]
+        chosen = loaded[0].orientation
         odd = [fr.path.name for fr in loaded if fr.orientation != chosen]
         if odd:
             warnings.warn(f"the Orientation tags of the bracket differ ({', '.join(odd)} differ from "
                           f"{loaded[0].path.name}'s {chosen}); all frames are shown as {loaded[0].path.name} "
-                          "({describe(chosen)}); give --orientation to choose another", PolarskyWarning, stacklevel=3)
+                          f"({describe(chosen)}); give --orientation to choose another", PolarskyWarning, stacklevel=3)
     else:
         chosen = int(read.orientation)
     for fr in loaded:

@@ -43,16 +43,21 @@ def test_summary_with_every_camera_fact_validates(tmp_path):
     assert any("orientation 6" in w for w in summary["warnings"])
 
 
-@pytest.mark.parametrize("args, message", [
-    (["--bit-depth", "40"], "error: --bit-depth '40' must be a whole number of bits from 8 to 32"),
-    (["--float-scale", "-1"], "error: --float-scale must be positive"),
-    (["--orientation", "portrait"], "error: --orientation 'portrait' must be auto or an orientation 1..8"),
-    (["--response", "nowhere"], "error: response curve nowhere does not exist; give the response.json"),
-    (["--exposure", "sometimes"], "error: Invalid value for '--exposure'"),
-])
-def test_bad_camera_options_give_one_line(tmp_path, args, message):
+#: option and value -> the start of the one-line error
+BAD_OPTIONS = {
+    "--bit-depth=40": "error: --bit-depth '40' must be a whole number of bits from 8 to 32",
+    "--float-scale=-1": "error: --float-scale must be positive",
+    "--orientation=portrait": "error: --orientation 'portrait' must be auto or an orientation 1..8",
+    "--response=nowhere": "error: response curve nowhere does not exist; give the response.json",
+    "--exposure=sometimes": "error: Invalid value for '--exposure'",
+}
+
+
+@pytest.mark.parametrize("option", sorted(BAD_OPTIONS))
+def test_bad_camera_options_give_one_line(tmp_path, option):
+    message = BAD_OPTIONS[option]
     paths = _bracket(tmp_path, [0, 45, 90, 135])
-    r = subprocess.run([sys.executable, "-m", "polarsky", "stokes", *paths, *args, "--out", str(tmp_path / "o")],
+    r = subprocess.run([sys.executable, "-m", "polarsky", "stokes", *paths, option, "--out", str(tmp_path / "o")],
                        capture_output=True, text=True, cwd=tmp_path)
     assert r.returncode == 2
     lines = r.stderr.strip().splitlines()

@@ -137,7 +137,8 @@ def test_camera_pointing_up_flips_tags_within_a_bracket(tmp_path):
     frames = render_frames(s, ANGLES_DISPLAYED)
     paths = [write_tiff(tmp_path / f"u{k}.tif", np.round(np.clip(f, 0, 1) * 65535).astype(np.uint16),
                         orientation=(1 if k < 2 else 6)) for k, f in enumerate(frames)]
-    with pytest.warns(PolarskyWarning, match=r"u2\.tif, u3\.tif differ from u0\.tif"):
+    with pytest.warns(PolarskyWarning, match=r"u2\.tif, u3\.tif differ from u0\.tif's 1\); all frames are shown "
+                                             r"as u0\.tif \(orientation 1 \(as stored\)\)"):
         ds = stokes_from_files(paths, angles=",".join(f"{a:g}" for a in ANGLES_DISPLAYED))
     assert ds.attrs["orientation"] == 1
     assert decode_attrs(ds.attrs)["frame_orientations"] == [1, 1, 6, 6]
