@@ -170,8 +170,8 @@ def align_bracket(bracket) -> np.ndarray:
         m = mc.copy()
         m[:, 2] = mc[:, 2] + origin - mc[:, :2] @ origin
         scale, rot = _scale_rotation(m)
-        centre = np.array([(w - 1) / 2, (h - 1) / 2])
-        shifts[k] = m[:, :2] @ centre + m[:, 2] - centre
+        center = np.array([(w - 1) / 2, (h - 1) / 2])
+        shifts[k] = m[:, :2] @ center + m[:, 2] - center
         rotations[k] = -np.degrees(rot)
         scales[k] = scale
         if resp < 0.05:

@@ -18,6 +18,7 @@ import errno
 import hashlib
 import json
 import os
+import re
 import shutil
 import tempfile
 import time
@@ -28,7 +29,7 @@ from .._version import __version__
 from ..errors import InputError
 
 __all__ = ["OutputStage", "Into", "open_stage", "check_destination", "MARKER", "check_out_dir", "folder_lock",
-           "swap_in", "FolderLock", "listed_files"]
+           "swap_in", "FolderLock", "listed_files", "published_path"]
 
 #: Hidden file that marks a folder written by polarsky (and lists the run's outputs).
 MARKER = ".polarsky-run.json"
@@ -117,6 +118,20 @@ def _hidden(out: Path, kind: str) -> Path:
     return out.parent / f".{out.name}.{kind}-{os.getpid()}-{uuid.uuid4().hex[:8]}"
 
 
+_STAGED = re.compile(rf"^\.(?P<name>.+)\.{_STAGING}-\d+-[0-9a-f]{{8}}$")
+
+
+def published_path(path) -> Path:
+    """Where a path that a run recorded inside its staging folder lies once the folder is
+    published (``path`` itself when it is not inside a staging folder).
+
+    >>> str(published_path("/data/.out.polarsky-staging-412-0a1b2c3d/bracket/f_000deg.png"))
+    '/data/out/bracket/f_000deg.png'
+    """
+    parts = Path(path).parts
+    return Path(*[m.group("name") if (m := _STAGED.match(p)) else p for p in parts])
+
+
 def listed_files(folder: Path) -> list:
     """Files below ``folder`` (relative names, sorted), hidden files and folders left out."""
     return sorted(p.relative_to(folder).as_posix() for p in folder.rglob("*")
@@ -145,6 +160,35 @@ def swap_in(staged: Path, out: Path) -> None:
         shutil.rmtree(old, ignore_errors=True)
 
 
+def relocate_records(staged: Path, out: Path) -> None:
+    """Rewrite paths inside ``staged`` recorded in its files to the same paths under ``out``.
+
+    Text outputs (``.json``, ``.csv``, ``.html``) are rewritten as text (also the JSON-escaped
+    form of the path); NetCDF files have their text attributes rewritten.
+    """
+    old, new = str(staged), str(out)
+    pairs = [(old, new), (json.dumps(old)[1:-1], json.dumps(new)[1:-1])]
+    for p in staged.rglob("*"):
+        if not p.is_file():
+            continue
+        if p.suffix in (".json", ".csv", ".html"):
+            text = p.read_text(encoding="utf-8")
+            if old in text or pairs[1][0] in text:
+                for a, b in pairs:
+                    text = text.replace(a, b)
+                p.write_text(text, encoding="utf-8")
+        elif p.suffix == ".nc":
+            import h5py
+
+            with h5py.File(p, "r+") as f:
+                for k, v in list(f.attrs.items()):
+                    text = v.decode() if isinstance(v, bytes) else v
+                    if isinstance(text, str) and any(a in text for a, _ in pairs):
+                        for a, b in pairs:
+                            text = text.replace(a, b)
+                        f.attrs[k] = text
+
+
 class OutputStage:
     """Write a run's outputs into a staging folder; :meth:`publish` swaps it in whole.
 
@@ -156,14 +200,19 @@ class OutputStage:
         The command writing it (recorded in the marker).
     inputs : sequence of path-like
         The run's inputs (never inside ``out_dir``).
+    relocate : bool
+        The run reads files it wrote into the folder itself (the demo renders its brackets
+        there): on publishing, paths recorded inside the staging folder (in ``.json``,
+        ``.csv``, ``.html`` files and NetCDF attributes) are rewritten to where they will lie.
 
     Use as a context manager: on an exception the staging folder is removed and the earlier
     result stays as it was.
     """
 
-    def __init__(self, out_dir, *, command: str = "", inputs=()):
+    def __init__(self, out_dir, *, command: str = "", inputs=(), relocate: bool = False):
         self.out_dir = check_out_dir(out_dir, inputs=inputs)
         self.command = command
+        self.relocate = relocate
         self.lock = FolderLock(self.out_dir)
         self.lock.acquire()
         try:
@@ -193,6 +242,8 @@ class OutputStage:
         marker = {"command": self.command, "software_version": __version__, "outputs": names,
                   "created": _dt.datetime.now(_dt.timezone.utc).isoformat(timespec="seconds")}
         try:
+            if self.relocate:
+                relocate_records(self.dir, self.out_dir)
             (self.dir / MARKER).write_text(json.dumps(marker, indent=1) + "\n", encoding="utf-8")
             swap_in(self.dir, self.out_dir)
         except OSError as exc:
