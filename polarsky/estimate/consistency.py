@@ -44,10 +44,11 @@ KAPPA_WARNING = 0.09
 LEVEL_EDGES = (0.0, 0.02, 0.05, 0.1, 0.2, 0.4, 0.7, 1.0)
 
 
-def sample_values(bracket, max_pixels: int = 200_000):
+def sample_values(bracket, max_pixels: int = 50_000):
     """Linear values of evenly spaced rows: ``(values (N, C, P) float64, valid (C, P) bool)``."""
     h, w = bracket.shape
-    rows = np.unique(np.linspace(0, h - 1, max(1, min(h, max_pixels // max(w, 1)))).astype(int))
+    rows = np.linspace(0, h - 1, max(1, min(h, max_pixels // max(w, 1)))).astype(int)
+    rows = rows[np.r_[True, rows[1:] != rows[:-1]]]  # sorted: drop repeats (np.unique imports numpy.ma)
     vals, valid = [], []
     for r in rows:
         v, inv, _ = bracket.linear_block(int(r), int(r) + 1)
@@ -87,28 +88,47 @@ def estimate_exposure(values, valid, w):
     if n < 4:
         return None, None
     w = np.asarray(w, dtype=np.float64)
-    parts = []
+    # per channel (part) and per disjoint subset of its pixels, the moments every step uses:
+    # G = sum_p v_p v_p^T, T = sum_p l_p v_p v_p^T (l_p = the pixel's mean value), s = sum_p v_p,
+    # and sums of l and l^2; the fits below are exact functions of them (no pass over pixels)
+    parts, n_pixels = [], 0
     for c in range(values.shape[1]):
         keep = valid[c] & (values[:, c].mean(axis=0) > 0.02)
         wc = w[min(c, w.shape[0] - 1)]
         proj = np.eye(n) - wc @ np.linalg.pinv(wc)
-        parts.append((proj, values[:, c, keep]))
-    if sum(v.shape[1] for _, v in parts) < 400:
+        v = values[:, c, keep]
+        n_pixels += v.shape[1]
+        subsets = []
+        for i in range(4):  # interleaved subsets: disjoint and each spread over the whole sample
+            vv = v[:, i::4]
+            lv = vv.mean(axis=0)
+            subsets.append({"G": vv @ vv.T, "T": (vv * lv) @ vv.T, "s": vv.sum(axis=1), "n": float(vv.shape[1]),
+                            "l": float(lv.sum()), "ll": float(lv @ lv)})
+        parts.append((proj, subsets))
+    if n_pixels < 400:
         return None, None
 
-    def solve(select, noise=(0.0, 1.0)):
-        from scipy.linalg import eigh
+    def moments(select):
+        """The moments of the chosen subsets (None: all) of every part."""
+        out = []
+        for proj, subsets in parts:
+            chosen = subsets if select is None else [subsets[select]]
+            out.append((proj, {k: sum(sub[k] for sub in chosen) for k in chosen[0]}))
+        return out
 
+    def solve(mom, noise=(0.0, 1.0)):
         a, b = noise
         m = np.zeros((n, n))
         d = np.zeros(n)
-        for (proj, v), idx in zip(parts, select):
-            vv = v[:, idx]
-            m += proj * (vv @ vv.T)
-            d += np.diag(proj) * (a * vv.shape[1] + b * vv.sum(axis=1))
+        for proj, mo in mom:
+            m += proj * mo["G"]
+            d += np.diag(proj) * (a * mo["n"] + b * mo["s"])
         # noise of variance a + b I adds D = diag(P_kk sum_p var_kp) to M: the consistent
-        # estimate is the generalized eigenvector of (M, D) with the smallest eigenvalue
-        lam, vecs = eigh(m, np.diag(np.maximum(d, 1e-12 * d.max())))
+        # estimate is the generalized eigenvector of (M, D) with the smallest eigenvalue;
+        # D is diagonal and positive: with D^-1/2 M D^-1/2 y = lam y, x = D^-1/2 y
+        inv_sqrt = 1.0 / np.sqrt(np.maximum(d, 1e-12 * d.max()))
+        lam, y = np.linalg.eigh(m * np.outer(inv_sqrt, inv_sqrt))
+        vecs = y * inv_sqrt[:, None]
         lam = np.maximum(lam, 0.0)
         if not lam[1] > SEPARATION * max(lam[0], 1e-9 * lam[-1]):
             # a second solution fits (nearly) as well: the scene shows too few kinds of
@@ -116,27 +136,37 @@ def estimate_exposure(values, valid, w):
             raise np.linalg.LinAlgError("gains not identifiable")
         return vecs[:, 0] / vecs[0, 0]
 
-    def noise_model(h):
-        """Variance ``a + b I`` fitted to the per-pixel residuals at ``h`` (read and photon noise)."""
-        lv, ev = [], []
-        for proj, v in parts:
-            r = proj @ (v * h[:, None])
-            ev.append((r * r).sum(axis=0) / max(float(np.trace(proj @ np.diag(h * h) @ proj)), 1e-12))
-            lv.append(v.mean(axis=0))
-        lv, ev = np.concatenate(lv), np.concatenate(ev)
-        x = np.stack([np.ones_like(lv), lv], axis=1)
-        coef = np.linalg.lstsq(x, ev, rcond=None)[0]
-        return max(float(coef[0]), 0.0), max(float(coef[1]), 0.0) + 1e-12
+    def noise_model(mom, h):
+        """Variance ``a + b I`` fitted to the per-pixel residuals at ``h`` (read and photon noise).
+
+        A pixel's residual energy is ``v^T Q v`` with ``Q = diag(h) P diag(h)`` (P is a
+        symmetric projector), so the least-squares line through (mean value, energy) needs
+        only ``trace(Q G)`` and ``trace(Q T)``.
+        """
+        n_, sx, sxx, sy, sxy = 0.0, 0.0, 0.0, 0.0, 0.0
+        for proj, mo in mom:
+            q = proj * np.outer(h, h)
+            scale = max(float(np.trace(proj @ np.diag(h * h) @ proj)), 1e-12)
+            n_ += mo["n"]
+            sx += mo["l"]
+            sxx += mo["ll"]
+            sy += float(np.sum(q * mo["G"])) / scale
+            sxy += float(np.sum(q * mo["T"])) / scale
+        det = n_ * sxx - sx * sx
+        if not det > 0:
+            return 0.0, max(sy / max(sx, 1e-12), 0.0) + 1e-12
+        b = (n_ * sxy - sx * sy) / det
+        a = (sy - b * sx) / n_
+        return max(a, 0.0), max(b, 0.0) + 1e-12
 
     def gains(select):
-        h = solve(select)
-        return 1.0 / solve(select, noise_model(h))
+        mom = moments(select)
+        h = solve(mom)
+        return 1.0 / solve(mom, noise_model(mom, h))
 
-    rng = np.random.default_rng(0)
-    splits = [np.array_split(rng.permutation(v.shape[1]), 4) for _, v in parts]
     try:
-        gain = gains([slice(None)] * len(parts))
-        subs = np.stack([gains([sp[i] for sp in splits]) for i in range(4)])
+        gain = gains(None)
+        subs = np.stack([gains(i) for i in range(4)])
     except np.linalg.LinAlgError:  # a scene of one polarization state: gains not identifiable
         return None, None
     sigma = subs.std(axis=0, ddof=1) / 2.0
