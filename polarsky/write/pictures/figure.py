@@ -1,5 +1,6 @@
 """Matplotlib helpers shared by the pictures: figures on no global state, the checkerboard,
-tone mapping, the recommended filter axis.
+tone mapping, the recommended filter axis, region outlines (:mod:`.marks` draws the same
+marks without matplotlib, on cached templates).
 
 Matplotlib's object-oriented API on the Agg canvas (no pyplot state, safe in worker processes).
 """
@@ -15,7 +16,7 @@ from ...core.transfer import linear_to_srgb
 from ...palette import CHECKER_GREYS
 from .canvas import DPI
 
-__all__ = ["new_figure", "save_figure", "checker", "tone_map", "draw_axis"]
+__all__ = ["new_figure", "save_figure", "checker", "tone_map", "draw_axis", "outline_region"]
 
 
 def new_figure(width_in=8.0, height_in=6.0, *, layout="constrained"):
@@ -67,3 +68,14 @@ def draw_axis(ax, angle_deg, shape, *, step=1, color=None, label=None):
         ax.annotate(label, (cx + dx, cy + dy), color=color, fontsize=9, fontweight="bold",
                     xytext=(6, 6), textcoords="offset points",
                     bbox=dict(boxstyle="round", fc="black", alpha=0.6, lw=0))
+
+
+def outline_region(ax, mask, step, color, label):
+    """Outline a region mask (decimated by ``step``) and label it at its upper left corner."""
+    ax.contour(np.arange(mask.shape[1]) * step, np.arange(mask.shape[0]) * step, mask.astype(float),
+               levels=[0.5], colors=[color], linewidths=1.8)
+    ys, xs = np.nonzero(mask)
+    if ys.size:
+        ax.annotate(label, (xs.min() * step, ys.min() * step), color=color, fontsize=8, fontweight="bold",
+                    xytext=(2, -4), textcoords="offset points", va="top",
+                    bbox=dict(boxstyle="round", fc="black", alpha=0.5, lw=0))

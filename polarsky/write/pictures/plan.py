@@ -21,8 +21,7 @@ import numpy as np
 
 from ...core.transfer import linear_to_srgb, srgb_to_linear
 from ...palette import COLOURS, rgb
-from .advice import outline_region
-from .figure import checker, draw_axis, new_figure, save_figure
+from .figure import checker, draw_axis, new_figure, outline_region, save_figure
 from .sky import draw_sky_marks, shown_rgb, sky_frame
 
 __all__ = ["sky_plan_pictures", "sky_sweep_picture", "glare_sweep_picture"]
