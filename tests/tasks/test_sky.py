@@ -100,23 +100,23 @@ def test_solve_all_three_warns_about_the_sun_axis_symmetry(plain, tmp_path):
 
 
 def test_little_sky_structure_warns(tmp_path):
-    import imageio.v3 as iio
+    import cv2
 
     prods = _products(_geom(), noise_sigma=0.05)
     mask = np.zeros((48, 64), np.uint8)
     mask[20:28, 30:38] = 255
-    iio.imwrite(tmp_path / "m.png", mask)
+    cv2.imwrite(str(tmp_path / "m.png"), mask)
     with pytest.warns(PolarskyWarning, match="too little sky structure|only .* sky pixels"):
         run_sky([], tmp_path / "w", stokes=prods, hfov_deg=70, yaw_deg=15, pitch_deg=25, roll_deg=4, solve="yaw",
                 sky_mask=tmp_path / "m.png", pictures=False, **PLACE)
 
 
 def test_sky_mask_limits_the_fit(plain, tmp_path):
-    import imageio.v3 as iio
+    import cv2
 
     mask = np.zeros((48, 64), np.uint8)
     mask[:, :32] = 1
-    iio.imwrite(tmp_path / "half.png", mask)
+    cv2.imwrite(str(tmp_path / "half.png"), mask)
     res = run_sky(plain, tmp_path / "m", hfov_deg=70, yaw_deg=10, pitch_deg=25, roll_deg=4,
                   sky_mask=tmp_path / "half.png", pictures=False, **PLACE)
     assert res["sky_pixels"] <= 32 * 48
@@ -124,9 +124,9 @@ def test_sky_mask_limits_the_fit(plain, tmp_path):
 
 
 def test_sky_mask_of_wrong_size(plain, tmp_path):
-    import imageio.v3 as iio
+    import cv2
 
-    iio.imwrite(tmp_path / "small.png", np.ones((10, 10), np.uint8))
+    cv2.imwrite(str(tmp_path / "small.png"), np.ones((10, 10), np.uint8))
     with pytest.raises(InputError, match="--sky-mask mask .*small.png is 10x10 but the frames are 64x48"):
         run_sky(plain, tmp_path / "x", hfov_deg=70, sky_mask=tmp_path / "small.png", pictures=False, **PLACE)
     assert not (tmp_path / "x" / "sky.json").exists()
