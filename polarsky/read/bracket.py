@@ -206,10 +206,12 @@ def load_bracket(frames=(), read=None) -> Bracket:
     if len(files) < 3:
         raise InputError(f"{len(files)} frame(s) given; a linear Stokes estimate needs at least 3 frames at distinct "
                          "analyzer angles")
+    _check_distinct_files(files, angles)
     angles = np.asarray(angles, dtype=np.float64)
     check_angles(angles)
     loaded = [read_frame(f, transfer=read.transfer, max_pixels=read.max_pixels) for f in files]
     _check_same_layout(loaded)
+    _warn_identical_frames(loaded, angles)
     for fr in loaded:
         if (fr.data >= SATURATION_FRACTION * fr.full_scale).all():
             raise InputError(f"frame {fr.path} is saturated everywhere (>= 98% of full scale); shorten the exposure "
@@ -242,3 +244,39 @@ def _check_same_layout(loaded) -> None:
         if fr.data.shape[0] != first.data.shape[0]:
             raise InputError(f"frame {fr.path.name} has {fr.data.shape[0]} channel(s) but {first.path.name} has "
                              f"{first.data.shape[0]}; use all-grey or all-RGB frames")
+
+
+def _check_distinct_files(files, angles) -> None:
+    """Refuse a file listed twice: one picture cannot be taken at two analyzer angles."""
+    import os
+
+    seen: dict = {}
+    for f, a in zip(files, angles):
+        try:
+            st = os.stat(f)
+            key = (st.st_dev, st.st_ino)
+        except OSError:
+            key = Path(f).resolve()
+        if key in seen:
+            g, b = seen[key]
+            same = "" if Path(g) == Path(f) else f" (as {Path(g).name} and {Path(f).name})"
+            raise InputError(f"frame {f} is listed twice{same}, at {b:g} and {a:g} deg; a bracket needs a separate "
+                             "picture at each analyzer angle: check the frame list, --angles or the manifest")
+        seen[key] = (f, a)
+
+
+def _warn_identical_frames(loaded, angles) -> None:
+    """Warn when two frames at different analyzer angles (and the same exposure) hold the very
+    same pixel values: one picture saved under two names."""
+    step = max(1, loaded[0].data.size // 4096)
+    samples = [fr.data.reshape(-1)[::step] for fr in loaded]
+    for i in range(len(loaded)):
+        for j in range(i + 1, len(loaded)):
+            if ((angles[i] - angles[j]) % 180.0 == 0.0 or loaded[i].exposure != loaded[j].exposure
+                    or not np.array_equal(samples[i], samples[j])):
+                continue
+            if np.array_equal(loaded[i].data, loaded[j].data):
+                warnings.warn(f"frames {loaded[i].path.name} and {loaded[j].path.name} hold identical pixel values "
+                              f"although their analyzer angles differ ({angles[i]:g} and {angles[j]:g} deg); if one "
+                              "picture was saved twice, the result is wrong", PolarskyWarning, stacklevel=3)
+

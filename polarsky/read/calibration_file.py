@@ -6,6 +6,7 @@ from pathlib import Path
 
 import numpy as np
 
+from .._shared.checks import path_problem
 from ..errors import InputError
 from .stokes_file import decode_attrs
 
@@ -20,7 +21,7 @@ def find_calibration(path) -> Path:
     if p.is_dir():
         p = p / FILE_NAME
     if not p.is_file():
-        raise InputError(f"calibration {path} does not exist; give the {FILE_NAME} (or the folder) written by "
+        raise InputError(f"calibration {path} {path_problem(p) or 'is not a file'}; give the {FILE_NAME} (or the folder) written by "
                          "'polarsky calibrate'")
     return p
 

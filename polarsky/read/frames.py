@@ -14,6 +14,7 @@ from pathlib import Path
 
 import numpy as np
 
+from .._shared.checks import path_problem
 from ..conventions import DEFAULT_MAX_PIXELS, TRANSFERS
 from ..errors import InputError
 from .exif import read_metadata, relative_exposure
@@ -53,8 +54,9 @@ class Frame:
 
 
 def _check_path(path: Path, what: str) -> None:
-    if not path.exists():
-        raise InputError(f"{what} {path} does not exist; check the path")
+    problem = path_problem(path)
+    if problem is not None:
+        raise InputError(f"{what} {path} {problem}; check the path")
     if not path.is_file():
         raise InputError(f"{what} {path} is not a file")
 

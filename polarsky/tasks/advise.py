@@ -7,7 +7,7 @@ form (:mod:`polarsky.advice`).
 
 from __future__ import annotations
 
-from ._common import collect_warnings, open_source, resolve_settings
+from ._common import check_estimate, collect_warnings, open_source, resolve_settings
 
 __all__ = ["run_advise"]
 
@@ -58,7 +58,8 @@ def run_advise(frames=(), out_dir=None, settings=None, *, progress: bool = False
             masks["protect"] = adv.protect.as_mask(src.shape)
         sink = RegionSink(masks)
         preview = PreviewSink(src.shape, max_side=1200)
-        run_blocks(src, op.noise, [sink, preview] if out_dir is not None else [sink], progress=progress)
+        info = run_blocks(src, op.noise, [sink, preview] if out_dir is not None else [sink], progress=progress)
+        check_estimate(info, settings, src.channels)
         extinction = settings.estimate.extinction
         offsets, _ = applied_analysis(op.facts, len(src.channels))
         result = advice_result(sink.sums, sink.counts, region=adv.region, protect=adv.protect, extinction=extinction,

@@ -30,12 +30,13 @@ def stokes_products(frames, settings) -> dict:
         return read_stokes(frames[0])
     from ..estimate.runner import run_blocks
     from ..estimate.sinks import MemorySink
-    from ._common import open_source
+    from ._common import check_estimate, open_source
 
     op = open_source(frames, settings)
     src = op.source
     mem = MemorySink(src.shape, len(src.channels), ("S0", "S1", "S2", "dolp", "aolp", "valid"))
-    run_blocks(src, op.noise, [mem])
+    info = run_blocks(src, op.noise, [mem])
+    check_estimate(info, settings, src.channels)
     a = mem.arrays
     return {"S": np.stack([a["S0"], a["S1"], a["S2"]]), "dolp": a["dolp"], "aolp": a["aolp"], "valid": a["valid"],
             "channels": src.channels, "inputs": op.inputs,

@@ -11,7 +11,7 @@ import time
 import warnings
 
 from ..errors import PolarskyWarning
-from ._common import collect_warnings, load_calibration, open_source, resolve_settings
+from ._common import check_estimate, collect_warnings, load_calibration, open_source, resolve_settings
 
 __all__ = ["stokes_from_files", "stokes_from_mosaic_values", "run_stokes", "RESIDUAL_WARNING"]
 
@@ -61,6 +61,7 @@ def stokes_from_files(frames=(), settings=None, *, progress: bool = False, **opt
         mem = MemorySink(src.shape, len(src.channels), _names(src.n_analyzers))
         info = run_blocks(src, op.noise, [mem], progress=progress)
         facts = _facts_after(op, info)
+        check_estimate(info, settings, src.channels)
     return stokes_dataset(mem.arrays, channels=src.channels, attrs=facts)
 
 
@@ -125,6 +126,7 @@ def run_stokes(frames=(), out_dir=None, settings=None, *, progress: bool = False
             try:
                 info = run_blocks(src, op.noise, [_Timed(writer), preview, stats], progress=progress)
                 facts = _facts_after(op, info)
+                check_estimate(info, settings, src.channels)
                 t1 = time.perf_counter()
                 writer.set_attrs(facts)
                 writer.commit()
@@ -219,7 +221,9 @@ def stokes_from_mosaic_values(values, invalid=None, settings=None, *, full_scale
     src = MosaicSource(values, invalid, layout, method, cal, full_scale=full_scale, srgb=srgb)
     noise = NoiseModel(gain_e_per_dn=est.gain_e_per_dn, read_noise_dn=est.read_noise_dn, source=est.noise)
     mem = MemorySink(src.shape, len(src.channels), _names(4))
-    info = run_blocks(src, noise, [mem])
+    with collect_warnings():
+        info = run_blocks(src, noise, [mem])
+        check_estimate(info, settings, src.channels)
     attrs = {"source_kind": "polarization mosaic", "mosaic": layout.text, "mosaic_colour": layout.colour,
              "demosaic": method.name, "demosaic_reference": method.reference, "polarizer": "sensor",
              "analyzer_angles_deg": list(layout.angles_deg), "analysis_matrix": np.round(src.w, 8).tolist(),

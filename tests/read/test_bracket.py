@@ -95,7 +95,7 @@ def test_exposure_normalization_from_exif(tmp_path):
     exposures = [(Fraction(1, 100), 100, 4.0), (Fraction(1, 50), 100, 4.0), (Fraction(1, 100), 200, 4.0)]
     paths = []
     for k, (t, iso, fn) in enumerate(exposures):
-        im = Image.fromarray(np.full((8, 8, 3), 100, np.uint8))
+        im = Image.fromarray(np.full((8, 8, 3), 100 + 10 * k, np.uint8))
         exif = im.getexif()
         ifd = exif.get_ifd(0x8769)
         ifd[0x829A] = TiffImagePlugin.IFDRational(t.numerator, t.denominator)
