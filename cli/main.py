@@ -66,6 +66,21 @@ def _show_warning(message, category, filename, lineno, file=None, line=None):
     print(f"{prefix}: {one_line(message)}", file=sys.stderr)
 
 
+def _names_as_given() -> list:
+    """Let stdout and stderr print file names that are not UTF-8 as the system gave them
+    (Python holds their bytes as lone surrogates, which strict encoding refuses); returns
+    what to restore."""
+    changed = []
+    for stream in (sys.stdout, sys.stderr):
+        try:
+            old = stream.errors
+            stream.reconfigure(errors="surrogateescape")
+        except (AttributeError, ValueError, TypeError):
+            continue
+        changed.append((stream, old))
+    return changed
+
+
 def _terminate(signum, frame):
     raise KeyboardInterrupt
 
@@ -74,6 +89,7 @@ def main(args=None) -> int:
     """Run the command line with ``args`` (default ``sys.argv[1:]``); return the exit status."""
     old = warnings.showwarning
     warnings.showwarning = _show_warning
+    streams = _names_as_given()
     old_term = None
     if sys.platform != "win32":
         try:  # SIGTERM cleans up like Ctrl-C: staging folders are removed, outputs stay whole
@@ -100,7 +116,7 @@ def main(args=None) -> int:
         print("error: aborted", file=sys.stderr)
         return 2
     except KeyboardInterrupt:
-        print("error: interrupted; nothing was published", file=sys.stderr)
+        print("error: interrupted (no output folder was left half-written)", file=sys.stderr)
         return 130
     except MemoryError:
         print("error: out of memory; process smaller frames or raise the machine's memory", file=sys.stderr)
@@ -116,6 +132,8 @@ def main(args=None) -> int:
         return 1
     finally:
         warnings.showwarning = old
+        for stream, errors in streams:
+            stream.reconfigure(errors=errors)
         if old_term is not None:
             signal.signal(signal.SIGTERM, old_term)
 

@@ -16,6 +16,7 @@ from pathlib import Path
 
 import numpy as np
 
+from .._shared.checks import check_distinct_files
 from ..conventions import SATURATION_FRACTION
 from ..core.stokes import check_angles
 from ..core.transfer import srgb_lut
@@ -206,7 +207,7 @@ def load_bracket(frames=(), read=None) -> Bracket:
     if len(files) < 3:
         raise InputError(f"{len(files)} frame(s) given; a linear Stokes estimate needs at least 3 frames at distinct "
                          "analyzer angles")
-    _check_distinct_files(files, angles)
+    check_distinct_files(files, angles)
     angles = np.asarray(angles, dtype=np.float64)
     check_angles(angles)
     loaded = [read_frame(f, transfer=read.transfer, max_pixels=read.max_pixels) for f in files]
@@ -244,25 +245,6 @@ def _check_same_layout(loaded) -> None:
         if fr.data.shape[0] != first.data.shape[0]:
             raise InputError(f"frame {fr.path.name} has {fr.data.shape[0]} channel(s) but {first.path.name} has "
                              f"{first.data.shape[0]}; use all-grey or all-RGB frames")
-
-
-def _check_distinct_files(files, angles) -> None:
-    """Refuse a file listed twice: one picture cannot be taken at two analyzer angles."""
-    import os
-
-    seen: dict = {}
-    for f, a in zip(files, angles):
-        try:
-            st = os.stat(f)
-            key = (st.st_dev, st.st_ino)
-        except OSError:
-            key = Path(f).resolve()
-        if key in seen:
-            g, b = seen[key]
-            same = "" if Path(g) == Path(f) else f" (as {Path(g).name} and {Path(f).name})"
-            raise InputError(f"frame {f} is listed twice{same}, at {b:g} and {a:g} deg; a bracket needs a separate "
-                             "picture at each analyzer angle: check the frame list, --angles or the manifest")
-        seen[key] = (f, a)
 
 
 def _warn_identical_frames(loaded, angles) -> None:

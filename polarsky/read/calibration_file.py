@@ -6,7 +6,7 @@ from pathlib import Path
 
 import numpy as np
 
-from .._shared.checks import path_problem
+from .._shared.checks import check_utf8_path, path_problem
 from ..errors import InputError
 from .stokes_file import decode_attrs
 
@@ -21,8 +21,9 @@ def find_calibration(path) -> Path:
     if p.is_dir():
         p = p / FILE_NAME
     if not p.is_file():
-        raise InputError(f"calibration {path} {path_problem(p) or 'is not a file'}; give the {FILE_NAME} (or the folder) written by "
-                         "'polarsky calibrate'")
+        raise InputError(f"calibration {path} {path_problem(p) or 'is not a file'}; give the {FILE_NAME} (or the "
+                         "folder) written by 'polarsky calibrate'")
+    check_utf8_path(p, "calibration")
     return p
 
 

@@ -152,6 +152,8 @@ def decode_image(path: Path, *, what: str = "frame") -> np.ndarray:
             raise InputError(f"{what} {path} has an unsupported type {suffix or '(none)'!r}; give PNG, TIFF or JPEG")
     except InputError:
         raise
+    except PermissionError as exc:
+        raise InputError(f"{what} {path} cannot be read ({exc.strerror}); check its permissions") from None
     except Exception as exc:  # noqa: BLE001 - every decoder failure means a bad file
         raise InputError(f"{what} {path} cannot be decoded ({type(exc).__name__}); it may be truncated or not an "
                          "image") from None

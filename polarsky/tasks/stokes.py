@@ -13,7 +13,7 @@ import warnings
 from ..errors import PolarskyWarning
 from ._common import check_estimate, collect_warnings, load_calibration, open_source, resolve_settings
 
-__all__ = ["stokes_from_files", "stokes_from_mosaic_values", "run_stokes", "RESIDUAL_WARNING"]
+__all__ = ["stokes_from_files", "stokes_from_mosaic_values", "run_stokes", "output_bytes", "RESIDUAL_WARNING"]
 
 #: Median relative fit residual above which the frames are said to disagree.
 RESIDUAL_WARNING = 0.03
@@ -118,6 +118,8 @@ def run_stokes(frames=(), out_dir=None, settings=None, *, progress: bool = False
         op = open_source(frames, settings)
         src = op.source
         with open_stage(out_dir, command="stokes", inputs=op.inputs) as stage:
+            stage.reserve(output_bytes(src.shape, len(src.channels), len(_names(src.n_analyzers)),
+                                       pictures=settings.output.pictures))
             before = set(stage.outputs())
             writer = StokesWriter(stage.path("stokes.nc"), shape=src.shape, channels=src.channels,
                                   names=_names(src.n_analyzers), attrs={})
@@ -158,6 +160,18 @@ def run_stokes(frames=(), out_dir=None, settings=None, *, progress: bool = False
             write_json(stage.path("summary.json"), summary)
             stage.publish()
     return summary
+
+
+def output_bytes(shape, n_channels: int, n_maps: int, *, pictures: bool = True) -> int:
+    """About how many bytes ``polarsky stokes`` writes: the maps as float32 plus the pictures."""
+    from ..estimate.sinks import preview_step
+
+    h, w = shape
+    nbytes = 50_000 + n_maps * n_channels * h * w * 4  # NetCDF-4 headers and the float32 maps
+    if pictures:  # 4 PNG figures: axes and labels, and about 1.5 bytes per preview pixel
+        step = preview_step(shape)
+        nbytes += 4 * (60_000 + int(1.5 * (h // step + 1) * (w // step + 1)))
+    return nbytes
 
 
 class _Timed:

@@ -9,8 +9,11 @@ left out (absent = none).
 
 from __future__ import annotations
 
+import contextlib
+import errno
 import json
 import os
+import shutil
 from pathlib import Path
 
 import numpy as np
@@ -19,7 +22,26 @@ from .._version import __version__
 from ..conventions import ANGLE_CONVENTION, VARIABLES
 from .jsonio import jsonable
 
-__all__ = ["NetCDFFile", "StokesWriter", "encode_attrs", "base_attrs"]
+__all__ = ["NetCDFFile", "StokesWriter", "encode_attrs", "base_attrs", "LOW_SPACE_BYTES"]
+
+#: A NetCDF library error while the destination's device has less free space than this is
+#: taken as a full device (the library reports only "NetCDF: HDF error").
+LOW_SPACE_BYTES = 64 * 2**20
+
+
+@contextlib.contextmanager
+def _writing(path: Path):
+    """Turn the NetCDF library's errors while writing ``path`` into :class:`OSError` naming it
+    (ENOSPC when its device is full), so the output stage reports them as write failures."""
+    try:
+        yield
+    except RuntimeError as exc:
+        try:
+            free = shutil.disk_usage(path.parent).free
+        except OSError:
+            free = None
+        code = errno.ENOSPC if free is not None and free < LOW_SPACE_BYTES else errno.EIO
+        raise OSError(code, f"{os.strerror(code)} ({exc})", str(path)) from None
 
 
 def encode_attrs(attrs: dict) -> dict:
@@ -59,9 +81,10 @@ class NetCDFFile:
 
         self.path = Path(path)
         self.tmp = self.path.with_name(f".{self.path.name}.partial-{os.getpid()}")
-        self._f = netCDF4.Dataset(self.tmp, "w", format="NETCDF4")
-        for name, size in dims.items():
-            self._f.createDimension(name, size)
+        with _writing(self.path):
+            self._f = netCDF4.Dataset(self.tmp, "w", format="NETCDF4")
+            for name, size in dims.items():
+                self._f.createDimension(name, size)
         self.variables: dict = {}
         self.set_attrs(attrs or {})
 
@@ -87,7 +110,8 @@ class NetCDFFile:
         for k, val in encode_attrs(attrs or {}).items():
             v.setncattr(k, val)
         if data is not None:
-            v[...] = data
+            with _writing(self.path):
+                v[...] = data
         self.variables[name] = v
         return v
 
@@ -97,7 +121,8 @@ class NetCDFFile:
             self._f.setncattr(k, val)
 
     def commit(self) -> Path:
-        self._f.close()
+        with _writing(self.path):
+            self._f.close()
         os.replace(self.tmp, self.path)
         return self.path
 
@@ -155,9 +180,10 @@ class StokesWriter:
                                    fill=np.float32(np.nan))
 
     def write(self, r0: int, r1: int, products: dict) -> None:
-        for name in self.names:
-            a = products[name]
-            self.file.variables[name][:, r0:r1, :] = a.astype(np.int8) if name == "valid" else a
+        with _writing(self.file.path):
+            for name in self.names:
+                a = products[name]
+                self.file.variables[name][:, r0:r1, :] = a.astype(np.int8) if name == "valid" else a
 
     def set_attrs(self, attrs: dict) -> None:
         self.file.set_attrs(attrs)

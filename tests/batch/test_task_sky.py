@@ -74,11 +74,11 @@ def test_a_sky_table_alone_asks_for_the_comparison(tmp_path):
     assert not _settings(tmp_path, "[read]\ntransfer = 'auto'\n")[1]
 
 
-def test_a_night_sky_fails_each_bracket_with_the_reason(sky_root, tmp_path):
-    settings, sky = _settings(tmp_path, GEOMETRY.format(when="2024-06-21T01:30:00+02:00") + "[output]\npictures = false\n")
-    rows = _run(sky_root, tmp_path / "out", settings, sky)
-    assert [r["status"] for r in rows] == ["failed"]
-    assert all("below the horizon" in r["error"] for r in rows)
+def test_a_night_sky_is_refused_before_any_bracket(tmp_path):
+    # time and place of the whole batch in its file: the sun's elevation is known before any bracket runs
+    with pytest.raises(InputError, match=r"batch.toml \[geometry\]: the sun is .* deg below the horizon at "
+                                         r"2024-06-21T01:30:00\+02:00"):
+        _settings(tmp_path, GEOMETRY.format(when="2024-06-21T01:30:00+02:00") + "[output]\npictures = false\n")
 
 
 @pytest.mark.parametrize("text, match", [
