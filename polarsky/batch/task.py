@@ -163,8 +163,14 @@ def _run(bracket: Bracket, settings, tmp: Path, *, sky: bool, t0: float) -> dict
         if sky:
             from ..tasks.sky import run_sky
 
-            # a mosaic's sky step reads its Stokes result; a bracket's reads its frames
-            result = run_sky([str(tmp / "stokes.nc")] if bracket.rule == "mosaic" else frames, dest, settings)
+            # a mosaic's sky step reads its Stokes result (its frame still gives the EXIF and the inputs named);
+            # a bracket's reads its frames
+            stokes = None
+            if bracket.rule == "mosaic":
+                from ..read.stokes_file import read_stokes
+
+                stokes = read_stokes(tmp / "stokes.nc")
+            result = run_sky(frames, dest, settings, stokes=stokes)
             values["rms_dolp_residual"] = result["rms_dolp_residual"]
             values["rms_aolp_residual_deg"] = result["rms_aolp_residual_deg"]
         make_thumbnails(tmp, frames, px=settings.report.thumbnail_px, best_angle_deg=values.get("best_angle_deg"))

@@ -19,7 +19,7 @@ from __future__ import annotations
 
 import numpy as np
 
-__all__ = ["MASK_REASONS", "describe_mask", "sky_mask", "fit_dolp_max", "wrap_aolp_difference", "residual_stats",
+__all__ = ["MASK_REASONS", "describe_mask", "channel_mean", "sky_mask", "fit_dolp_max", "wrap_aolp_difference", "residual_stats",
            "subsample"]
 
 #: Codes of the ``sky_mask_reason`` map: 0 = used for the fit.
@@ -34,6 +34,22 @@ MASK_REASONS = {
     7: "too dark (obstacle)",
     8: "excluded by --sky-mask",
 }
+
+
+def channel_mean(a: np.ndarray) -> np.ndarray:
+    """Mean over the first axis (channels) of the finite values; NaN where none is finite.
+
+    Unlike ``np.nanmean`` it says nothing (no RuntimeWarning) about pixels invalid in every
+    channel, such as a saturated sun.
+
+    >>> channel_mean(np.array([[1.0, np.nan], [3.0, np.nan]], np.float32))
+    array([ 2., nan], dtype=float32)
+    """
+    finite = np.isfinite(a)
+    n = finite.sum(axis=0)
+    total = np.where(finite, a, 0).sum(axis=0)
+    with np.errstate(invalid="ignore", divide="ignore"):
+        return np.where(n > 0, total / np.maximum(n, 1), np.nan).astype(a.dtype)
 
 
 def describe_mask(reason) -> str:

@@ -34,7 +34,7 @@ from ..conventions import SUN_CAUTION
 from ..errors import InputError, PolarskyWarning
 from ..estimate.calibration import Calibration, applied_analysis
 from ..sky.features import feature_bands
-from ..sky.fit import describe_mask, fit_dolp_max, sky_mask
+from ..sky.fit import channel_mean, describe_mask, fit_dolp_max, sky_mask
 from ..sky.models import get_model
 from ..sky.orient import TIE_CORRELATION, fit_orientation, sample_bracket
 from ..sky.position_fit import fit_position_offsets, position_samples
@@ -128,8 +128,8 @@ def fit_sky_calibration(brackets, settings, *, stokes=None, position_data=None, 
         prior_offsets.append(po)
         prior_diatt.append(pd)
         valid = np.all(products["valid"], axis=0)
-        s0 = np.nanmean(products["S"][0], axis=0)
-        dmean = np.nanmean(dolp, axis=0)
+        s0 = channel_mean(products["S"][0])
+        dmean = channel_mean(dolp)
         user = None if sk.sky_mask is None else sk.sky_mask.as_mask((h, w))
         if solve:
             usable = valid & np.isfinite(dmean) & (dmean <= 1) & (s0 >= 0.25 * float(np.nanmedian(s0[valid])))

@@ -14,7 +14,7 @@ from .._version import __version__
 from ..conventions import SUN_CAUTION
 from ..errors import InputError, PolarskyWarning
 from ..sky.features import feature_bands
-from ..sky.fit import MASK_REASONS, describe_mask, fit_dolp_max, residual_stats, sky_mask, wrap_aolp_difference
+from ..sky.fit import MASK_REASONS, channel_mean, describe_mask, fit_dolp_max, residual_stats, sky_mask, wrap_aolp_difference
 from ..sky.orient import fit_orientation, sample_bracket
 from ..sky.rayleigh import RHO_AIR_YOUNG1980, dolp_max_bound
 from ..sky.skymap import model_maps
@@ -51,8 +51,8 @@ def compare(products, geom, info, out_dir, *, settings, model, max_fit_samples, 
     valid_all = np.all(products["valid"], axis=0) if products["valid"].ndim == 3 else products["valid"]
     user = None if sk.sky_mask is None else sk.sky_mask.as_mask((h, w))
     bands = feature_bands(sun_radius_deg=sun_mask_deg)
-    s0 = np.nanmean(s[0], axis=0) if c > 1 else s[0, 0]
-    dolp_mean = np.nanmean(dolp, axis=0) if c > 1 else dolp[0]
+    s0 = channel_mean(s[0]) if c > 1 else s[0, 0]
+    dolp_mean = channel_mean(dolp) if c > 1 else dolp[0]
 
     orientation = {"source": "option"}
     if solve:

@@ -149,7 +149,8 @@ def run_stokes(frames=(), out_dir=None, settings=None, *, progress: bool = False
                 hint = "" if settings.estimate.align or facts["source_kind"] != "bracket" else ", or try --align"
                 warnings.warn(f"the analyzer intensities disagree with the filter model: median fit residual "
                               f"{med * 100:.1f}% of S0 (99th percentile {stat['p99_relative_residual'] * 100:.1f}%); "
-                              f"see residual.png for motion, a passing cloud or exposure drift{hint}",
+                              f"see {'residual.png' if settings.output.pictures else 'residual in stokes.nc'} for "
+                              f"motion, a passing cloud or exposure drift{hint}",
                               PolarskyWarning, stacklevel=2)
             timing = {"read": op.timing.get("read"), "align": op.timing.get("align"), "estimate": info["estimate_s"],
                       "write_netcdf": t_nc, "write_pictures": t_pics}

@@ -50,6 +50,8 @@ def check_out_dir(out_dir, *, inputs=(), option: str = "--out") -> Path:
         raise InputError(f"{option} is empty; give the folder for the outputs, e.g. {option} out/")
     out = Path(out_dir)
     check_utf8_path(out, option)
+    if out.is_symlink() and out.is_dir():
+        out = out.resolve()  # publish into the folder the link points to; the link stays
     if out.exists() and not out.is_dir():
         raise InputError(f"{option} {out} exists and is not a folder; give a folder path")
     target = out.resolve()
