@@ -14,10 +14,11 @@ import click
 CALIBRATE_MODULES: list[str] = [
     "calibrate_flat",
     "calibrate_sky",
+    "calibrate_ring",
 ]
 
 
-@click.group(name="calibrate", short_help="Make a calibration (flat bench frames or the clear sky).")
+@click.group(name="calibrate", short_help="Make a calibration (flat bench frames, the clear sky, the filter ring's zero).")
 def command():
     """Make a calibration folder (calibration.nc, calibration.json) for '--calibration DIR'."""
 

@@ -45,5 +45,5 @@ def command(frames, out_dir, as_json, **kw):
     click.echo(f"dead pixels {summary['dead_pixels']}, hot pixels {summary['hot_pixels']}, saturated "
                f"{summary['saturated_pixels']}; median orientation uncertainty "
                f"{summary['median_pixel_angle_sigma_deg']} deg")
-    click.echo(f"wrote {summary['calibration']}")
+    click.echo(f"wrote {summary['calibration_file']}")
     return 0

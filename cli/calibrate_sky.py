@@ -41,7 +41,7 @@ def command(frames, out_dir, as_json, **kw):
             f"{ch} {d:.4f} ± {s:.4f}" for ch, d, s in zip(res["channels"], res["diattenuation"], res["diattenuation_sigma"])))
     for note in res["notes"]:
         click.echo("note: " + note)
-    click.echo(f"wrote {res['calibration']} ({res['brackets']} bracket(s), {res['sky_pixels']} sky pixels)")
+    click.echo(f"wrote {res['calibration_file']} ({res['brackets']} bracket(s), {res['sky_pixels']} sky pixels)")
     click.echo(res["caution"])
     return 0
 

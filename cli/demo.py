@@ -24,6 +24,7 @@ def command(out_dir, as_json):
     if as_json:
         print_json(rep)
         return 0
+    _print_plan(rep["plan"], rep["true_sky_dolp_max"])
     click.echo(f"bracket: {len(rep['frames'])} PNG frames in {out_dir}/bracket")
     measured = rep["measured_shifts_px"] or rep["true_shifts_px"]
     click.echo("hand-held shake, true vs measured (dx, dy px): " + "; ".join(
@@ -41,3 +42,28 @@ def command(out_dir, as_json):
     click.echo(f"wrote {', '.join(rep['outputs'])} to {out_dir}")
     click.echo(FIELD_CAUTION)
     return 0
+
+
+def _print_plan(plan: dict, true_dolp_max: float) -> None:
+    """The plans made before any frame existed, then what the rendered brackets show."""
+    sky, g = plan["sky"], plan["glare"]
+    click.echo("plan first (before any frame existed): the evening sky")
+    click.echo(f"  predicted: filter at {sky['predicted_best_angle_deg']:.1f} deg, the sky "
+               f"{sky['predicted_darkening_stops']:.2f} stops darker on average ({sky['predicted_darkening_stops_min']:.2f} "
+               f"to {sky['predicted_darkening_stops_max']:.2f}), default dolp_max {sky['predicted_dolp_max']:.2f}")
+    click.echo(f"  {sky['unevenness_text']}")
+    click.echo(f"  the rendered bracket shows: best angle {sky['measured_best_angle_deg']:.1f} deg, "
+               f"{sky['measured_darkening_stops']:.2f} stops on average ({sky['measured_darkening_stops_min']:.2f} to "
+               f"{sky['measured_darkening_stops_max']:.2f}); its sky was rendered with dolp_max {true_dolp_max:.2f} "
+               "and camera noise, which widens the measured extremes")
+    click.echo(f"plan first: glare off the harbour water at about {g['incidence_deg']:g} deg (water n = {g['index']:.4f}, "
+               "IAPWS R9-97)")
+    click.echo(f"  predicted: filter at {g['predicted_best_angle_deg']:.1f} deg (vertical turned by the camera's roll); "
+               f"the pure reflection is {g['predicted_reflection_dolp'] * 100:.0f}% polarized, "
+               f"{g['predicted_reduction_stops_ideal']:.2f} stops removable; Brewster's angle {g['brewster_deg']:.1f} deg")
+    lo, hi = g["incidence_solutions_deg"]
+    click.echo(f"  the bracket shows: best angle {g['measured_best_angle_deg']:.1f} deg, the water region "
+               f"{g['measured_region_dolp'] * 100:.0f}% polarized ({g['measured_reduction_stops']:.2f} stops): light from "
+               "the plate below and the sky's own polarization dilute the reflection")
+    click.echo(f"  read backwards (advise --surface water): that DoLP fits {lo:.1f} or {hi:.1f} deg of incidence; the "
+               "rendered water spans about 50 to 82 deg, between the two, as expected for a diluted reflection")

@@ -25,10 +25,12 @@ from polarsky.errors import InputError, PolarskyWarning, one_line
 COMMAND_MODULES = dict(
     advise="Which way to set the filter, and what it removes.",
     batch="Process every bracket of a folder tree, locally or on dask.",
-    calibrate="Make a calibration (flat bench frames or the clear sky).",
+    calibrate="Make a calibration (flat bench frames, the clear sky, the filter ring's zero).",
     demo="Run polarsky on an invented scene with known truth.",
+    plan="Plan a shot before the bracket exists (sky darkening, glare).",
     sky="Compare the sky with the clear-sky model.",
     stokes="Stokes maps, DoLP and AoLP with uncertainties.",
+    workbench="A page in your browser: mark the glare, read the angle.",
 )
 
 

@@ -16,7 +16,7 @@ from polarsky.conventions import ANGLE_HELP
 from polarsky.options.settings import GROUPS, choices_of
 
 __all__ = ["settings_options", "frames_argument", "out_option", "json_option", "pop_settings", "frames_command",
-           "ANGLE_HELP"]
+           "emit", "ANGLE_HELP"]
 
 
 def _click_option(f: dataclasses.Field):
@@ -24,13 +24,16 @@ def _click_option(f: dataclasses.Field):
     flag = "--" + f.name.replace("_", "-")
     kw = {"default": None, "help": md["help"], "show_default": False}
     if f.default is not dataclasses.MISSING and f.default not in (None, (), ""):
-        kw["help"] += f" [default: {f.default}]" if not isinstance(f.default, bool) else ""
+        shown = ",".join(f"{v:g}" for v in f.default) if isinstance(f.default, tuple) else f.default
+        kw["help"] += f" [default: {shown}]" if not isinstance(f.default, bool) else ""
     if md["parse"].__name__ == "boolean":
         return click.option(f"{flag}/--no-{flag[2:]}", f.name, default=None, help=md["help"])
     if md["choices"]:
         kw["type"] = click.Choice(list(choices_of(f)), case_sensitive=False)
     elif md["metavar"]:
         kw["metavar"] = md["metavar"]
+    if md.get("flag_value"):  # the option alone means its flag value
+        kw.update(is_flag=False, flag_value=md["flag_value"])
     if md["multiple"]:
         kw["multiple"] = True
         kw["default"] = ()
@@ -68,6 +71,17 @@ def out_option(*, required: bool, help: str):
 def json_option(fn):
     """``--json``: print one JSON object on stdout and nothing else there."""
     return click.option("--json", "as_json", is_flag=True, help="Print the result as one JSON object on stdout.")(fn)
+
+
+def emit(result: dict, as_json: bool, show) -> int:
+    """Print ``result`` as one JSON object (``--json``) or in words (``show(result)``); exit status 0."""
+    if as_json:
+        from polarsky.write.jsonio import print_json
+
+        print_json(result)
+    else:
+        show(result)
+    return 0
 
 
 def frames_command(name: str, *, groups, short_help: str, out_help: str, out_required: bool = True, exclude=(),

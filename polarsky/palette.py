@@ -20,6 +20,15 @@ COLOURS = {
     "feature": "#c8b6ff",            # halo and rainbow rings
     "outline": "#000000",            # outlines that keep marks readable on any background
     "text_muted": "#5b6166",
+    # planning pictures (polarsky plan)
+    "sky_tone": "#8fb8de",           # the sky as rendered through the filter (scaled by its transmission)
+    "prediction": "#3d5a80",         # a predicted curve for an ideal filter (mean darkening, reduction)
+    "prediction_real": "#e07a5f",    # the same for the filter's extinction ratio
+    "spread": "#98c1d9",             # the range (min..max) of a prediction over the frame
+    "s_polarized": "#1d3557",        # s-polarized reflectance Rs
+    "p_polarized": "#a8a29e",        # p-polarized reflectance Rp
+    "brewster": "#6a4c93",           # Brewster's angle
+    "current": "#d62828",            # the planned value (incidence, time, heading) and the chosen optimum
 }
 
 #: Invalid pixels (saturated, black, defective, outside the aligned frames, not sky) are a

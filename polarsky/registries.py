@@ -8,7 +8,7 @@ from __future__ import annotations
 
 from ._shared.registry import Registry
 
-__all__ = ["DEMOSAIC_METHODS", "LENS_MODELS", "SKY_MODELS"]
+__all__ = ["DEMOSAIC_METHODS", "LENS_MODELS", "SKY_MODELS", "SKY_RADIANCE_MODELS", "SURFACES"]
 
 #: Decoding of a polarization mosaic (``--demosaic``): entries are
 #: :class:`polarsky.mosaic.methods.DemosaicMethod`.
@@ -30,4 +30,19 @@ LENS_MODELS = Registry("lens model", "--lens", {
 SKY_MODELS = Registry("sky model", "--model", {
     "rayleigh": "polarsky.sky.models:RayleighSingleScattering",
     "neutral-points": "polarsky.sky.models:NeutralPointsBerry2004",
+})
+
+#: Sky radiance models that weigh the sky's pixels in a plan (``--radiance``): entries are
+#: :class:`polarsky.plan.radiance.RadianceModel` instances.
+SKY_RADIANCE_MODELS = Registry("sky radiance model", "--radiance", {
+    "uniform": "polarsky.plan.radiance:UNIFORM",
+    "cie-clear": "polarsky.plan.radiance:CIE_CLEAR_SKY",
+})
+
+#: Reflecting surfaces of glare planning (``--surface``): entries are
+#: :class:`polarsky.core.refractive_index.SurfaceIndex` (index relative to air, with its source).
+SURFACES = Registry("surface", "--surface", {
+    "water": "polarsky.core.refractive_index:WATER",
+    "glass": "polarsky.core.refractive_index:GLASS",
+    "ice": "polarsky.core.refractive_index:ICE",
 })

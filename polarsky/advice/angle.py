@@ -61,9 +61,9 @@ def best_angle_for_region(s, *, diattenuation: float = 1.0) -> dict:
         left = 1.0 - d * dolp
         return float(-np.log2(left)) if left > 0 else float("inf")
     return {
-        "best_angle_deg": round(best, 3),
+        "best_angle_deg": round(best, 3) % 180.0,  # rounding may reach 180: that is 0
         "region_dolp": round(dolp, 5),
-        "region_aolp_deg": round(aolp, 3),
+        "region_aolp_deg": round(aolp, 3) % 180.0,
         "reduction_stops": round(stops(diattenuation), 4),
         "reduction_stops_ideal": round(stops(1.0), 4),
         "transmission_at_best": round(float(0.5 * (1 - diattenuation * dolp)), 5),

@@ -18,7 +18,8 @@ __all__ = ["advice_result", "advice_text", "ANGLE_CONVENTION_NOTE", "ADVICE_KEYS
 ADVICE_KEYS = ("software_version", "best_angle_deg", "reduction_stops", "reduction_stops_ideal", "transmission_at_best",
                "region_dolp", "region_aolp_deg", "extinction_ratio", "region", "region_pixels", "protect",
                "protect_pixels", "contrast_gain", "protect_intensity", "region_intensity", "minimum_angle_deg",
-               "analyzer_angles_deg", "angle_offset_deg", "inputs", "shifts_px", "polarizer", "angle_convention",
+               "analyzer_angles_deg", "angle_offset_deg", "calibration", "ring_offset_deg", "ring_offset_sigma_deg",
+               "best_ring_reading_deg", "surface_estimate", "inputs", "shifts_px", "polarizer", "angle_convention",
                "warnings", "outputs")
 
 ANGLE_CONVENTION_NOTE = ("degrees counter-clockwise from the image +x axis as displayed, in the frame of the input "
@@ -26,7 +27,8 @@ ANGLE_CONVENTION_NOTE = ("degrees counter-clockwise from the image +x axis as di
 
 
 def advice_result(sums: dict, counts: dict, *, region, protect=None, extinction=None, analyzer_angles_deg,
-                  inputs, shifts_px=None, polarizer: str = "front", angle_offset_deg: float = 0.0) -> dict:
+                  inputs, shifts_px=None, polarizer: str = "front", angle_offset_deg: float = 0.0,
+                  calibration=None, ring=None, surface=None, pitch_deg=None) -> dict:
     """The advice (what ``polarsky advise --json`` prints) from a region's summed Stokes vectors.
 
     Parameters
@@ -45,6 +47,16 @@ def advice_result(sums: dict, counts: dict, *, region, protect=None, extinction=
     angle_offset_deg : float
         Offset the estimate added to the analyzer angles as given (``--angle-offset`` and a
         calibration's offset): the results are in the frame of the given angles plus it.
+    calibration : dict, optional
+        The calibration applied (the glossary's ``calibration`` object), echoed.
+    ring : dict, optional
+        A filter-ring calibration (:func:`polarsky.advice.ring.ring_of_calibration`): the
+        recommendation is also given as a reading on the scale of the angles given
+        (``best_ring_reading_deg = best_angle_deg - angle_offset_deg``).
+    surface : dict, optional
+        The reflecting medium (:func:`polarsky.advice.surface.resolve_surface`): the angle of
+        incidence is estimated from the region's DoLP (key ``surface_estimate``), with
+        ``pitch_deg`` (elevation of the optical axis) choosing between its two solutions.
     """
     from ..core.stokes import diattenuation_from_extinction
 
@@ -69,9 +81,18 @@ def advice_result(sums: dict, counts: dict, *, region, protect=None, extinction=
         t_best = transmitted(s, con["best_angle_deg"], diattenuation=d)
         result["reduction_stops"] = round(float(np.log2(0.5 * s[0] / t_best)), 4) if t_best > 0 else float("inf")
     from .._version import __version__
+    from .ring import ring_keys, ring_reading
 
+    if ring is not None:
+        result.update(ring_keys(ring, {}))
+        result["best_ring_reading_deg"] = ring_reading(result["best_angle_deg"], angle_offset_deg)
+    if surface is not None:
+        from .surface import surface_estimate
+
+        result["surface_estimate"] = surface_estimate(result["region_dolp"], surface, pitch_deg=pitch_deg,
+                                                      region_aolp_deg=result["region_aolp_deg"])
     result.update(software_version=__version__, analyzer_angles_deg=[float(a) for a in analyzer_angles_deg],
-                  angle_offset_deg=round(float(angle_offset_deg), 6),
+                  angle_offset_deg=round(float(angle_offset_deg), 6), calibration=calibration,
                   inputs=[str(p) for p in inputs], shifts_px=shifts_px, polarizer=polarizer,
                   angle_convention=ANGLE_CONVENTION_NOTE)
     return {k: result.get(k) for k in ADVICE_KEYS} | {"warnings": [], "outputs": None}
@@ -88,6 +109,10 @@ def _turn_text(best: float, angles, offset: float) -> str:
     sense = "counter-clockwise" if d > 0 else "clockwise"
     return (f"from the {given[k]:g} deg setting of your bracket, turn the filter {abs(d):.1f} deg {sense} "
             "as seen on the displayed image (from behind the camera)")
+
+
+def _sentence(text: str) -> str:
+    return text[0].upper() + text[1:] + "."
 
 
 def advice_text(result: dict) -> str:
@@ -127,4 +152,10 @@ def advice_text(result: dict) -> str:
                      f"protected/region contrast improves {result['contrast_gain']:.2f}x over no filter.")
     if dolp < 0.05:
         lines.append("The region is barely polarized: no filter angle will remove much of this light.")
+    if result.get("best_ring_reading_deg") is not None:
+        from .ring import ring_line
+
+        lines.append(_sentence(ring_line(result["best_ring_reading_deg"], result)))
+    if result.get("surface_estimate") is not None:
+        lines.extend(_sentence(note) for note in result["surface_estimate"]["notes"])
     return "\n".join(lines)

@@ -60,7 +60,7 @@ def bracket_settings(settings, bracket: Bracket):
 
 def _settings_key(settings) -> dict:
     d = dataclasses.asdict(settings)
-    for k in ("given", "cluster", "discovery"):
+    for k in ("given", "cluster", "discovery", "workbench"):
         d.pop(k, None)
     d["report"].pop("embed_images", None)
     return d

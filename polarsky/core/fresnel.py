@@ -11,7 +11,7 @@ from __future__ import annotations
 
 import numpy as np
 
-__all__ = ["fresnel_reflectance", "reflected_dolp", "brewster_angle_deg", "reflection_stokes"]
+__all__ = ["fresnel_reflectance", "reflected_dolp", "brewster_angle_deg", "reflection_stokes", "incidence_from_dolp"]
 
 
 def fresnel_reflectance(incidence_deg, n1: float = 1.0, n2: float = 1.333):
@@ -66,6 +66,43 @@ def brewster_angle_deg(n1: float = 1.0, n2: float = 1.333) -> float:
     .. [1] IUPAC Gold Book, "Brewster angle".
     """
     return float(np.degrees(np.arctan2(n2, n1)))
+
+
+def incidence_from_dolp(dolp: float, n2: float, n1: float = 1.0) -> tuple:
+    """Both angles of incidence (degrees) whose reflection of unpolarized light has DoLP ``dolp``.
+
+    The reflection's DoLP rises from 0 at normal incidence to 1 at Brewster's angle and falls
+    back to 0 at grazing incidence, so every DoLP in (0, 1) has one solution below and one
+    above Brewster's angle.
+
+    Returns
+    -------
+    (low_deg, high_deg)
+        Both equal to Brewster's angle for ``dolp >= 1``; ``(0, 90)`` for ``dolp <= 0``.
+
+    References
+    ----------
+    .. [1] E. Hecht, *Optics*, 5th ed. (2017), section 8.6.
+
+    Examples
+    --------
+    >>> lo, hi = incidence_from_dolp(float(reflected_dolp(40.0, 1.0, 1.5)), 1.5)
+    >>> round(lo, 6)
+    40.0
+    """
+    from scipy.optimize import brentq
+
+    b = brewster_angle_deg(n1, n2)
+    p = float(dolp)
+    if p >= 1.0:
+        return b, b
+    if p <= 0.0:
+        return 0.0, 90.0
+
+    def g(x):
+        return float(reflected_dolp(x, n1, n2)) - p
+
+    return float(brentq(g, 0.0, b, xtol=1e-10)), float(brentq(g, b, 90.0, xtol=1e-10))
 
 
 def reflection_stokes(s_in, incidence_deg, s_axis_deg, n1: float = 1.0, n2: float = 1.333):

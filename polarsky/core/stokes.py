@@ -121,7 +121,8 @@ def distinct_orientations(angles_deg) -> np.ndarray:
     >>> distinct_orientations([0, 180, 45, 225.0000000001]).tolist()
     [0.0, 45.0]
     """
-    return np.unique(np.round(np.mod(np.asarray(angles_deg, dtype=np.float64).ravel(), 180.0), 6) % 180.0)
+    a = np.sort(np.round(np.mod(np.asarray(angles_deg, dtype=np.float64).ravel(), 180.0), 6) % 180.0)
+    return a[np.concatenate(([True], np.diff(a) != 0))] if a.size else a
 
 
 def check_angles(angles_deg, *, warn_condition: float = BAD_CONDITION, what: str = "analyzer angles") -> float:

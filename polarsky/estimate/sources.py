@@ -39,6 +39,9 @@ class BracketSource:
         self.counts = np.zeros((bracket.n, 2), dtype=np.int64)
         scale = bracket.exposure_scale
         self.weights = None if np.allclose(scale, 1.0) else np.asarray(scale, dtype=np.float64)
+        #: full scale of the Stokes values (1 / the largest relative exposure): the unit of
+        #: the stored precision
+        self.value_full_scale = float(np.min(1.0 / np.asarray(scale, dtype=np.float64)))
         from .runner import use_compiled
 
         #: use the compiled kernels (large inputs)
@@ -96,6 +99,8 @@ class MosaicSource:
         k = method.scale
         hs, ws = self.values.shape
         self.shape = (hs // k, ws // k)
+        #: full scale of the Stokes values (the values are scaled to 1 = full scale)
+        self.value_full_scale = 1.0
         self.channels = layout.channels
         self.n_analyzers = 4
         self.w = np.stack([position_matrix(layout, calibration, c) for c in range(len(self.channels))])

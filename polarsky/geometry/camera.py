@@ -187,7 +187,7 @@ class _FisheyeLens(Lens):
 
     def describe(self) -> dict:
         d = super().describe()
-        d.update(fov_deg=float(self.fov_deg), circle_centre_px=[float(self.circle_cx), float(self.circle_cy)],
+        d.update(fov_deg=float(self.fov_deg), circle_center_px=[float(self.circle_cx), float(self.circle_cy)],
                  circle_radius_px=float(self.radius_px))
         return d
 
@@ -229,7 +229,7 @@ def _positive(name, value):
 
 
 def make_lens(name: str, width: int, height: int, *, hfov_deg=None, focal_px=None, focal_mm=None,
-              sensor_width_mm=None, distortion=None, fov_deg=None, circle_centre_px=None,
+              sensor_width_mm=None, distortion=None, fov_deg=None, circle_center_px=None,
               circle_radius_px=None, principal_point_px=None) -> Lens:
     """Build a lens model for an image of ``width`` x ``height`` pixels.
 
@@ -245,7 +245,7 @@ def make_lens(name: str, width: int, height: int, *, hfov_deg=None, focal_px=Non
         OpenCV distortion coefficients ``k1,k2,p1,p2[,k3...]`` (pinhole only).
     fov_deg : float
         Fisheye field of view across the image circle's diameter (degrees).
-    circle_centre_px : (float, float), optional
+    circle_center_px : (float, float), optional
         Fisheye image-circle centre (column, row); default the principal point.
     circle_radius_px : float, optional
         Fisheye image-circle radius; default half the shorter image side.
@@ -289,6 +289,6 @@ def make_lens(name: str, width: int, height: int, *, hfov_deg=None, focal_px=Non
         raise InputError(f"--lens {name} needs --fov-deg (the field of view across the image circle)")
     if fov > 360:
         raise InputError(f"--fov-deg {fov:g} is above 360")
-    ccx, ccy = (cx, cy) if circle_centre_px is None else map(float, circle_centre_px)
+    ccx, ccy = (cx, cy) if circle_center_px is None else map(float, circle_center_px)
     radius = _positive("--circle-radius-px", circle_radius_px) or min(width, height) / 2.0
     return cls(width, height, cx, cy, fov_deg=fov, circle_cx=ccx, circle_cy=ccy, radius_px=radius)

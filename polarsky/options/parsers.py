@@ -111,6 +111,18 @@ def paths(value, what, base=None, spec=None):
     return tuple(path(v, what, base) for v in items)
 
 
+def variables(value, what, base=None, spec=None):
+    """Names of Stokes variables (``S0,S1,S2,valid``), each known, in the data model's order."""
+    from ..conventions import VARIABLES
+
+    items = [str(v).strip() for v in (value if isinstance(value, (list, tuple)) else str(value).split(","))]
+    bad = [v for v in items if v not in VARIABLES]
+    if bad or not items:
+        raise InputError(f"{what} {value!r}: {', '.join(bad) or 'nothing'} not known; give names among "
+                         f"{','.join(VARIABLES)}")
+    return tuple(v for v in VARIABLES if v in items)
+
+
 def angles(value, what, base=None, spec=None):
     return syntax.parse_angle_list(value, what)
 
@@ -232,4 +244,53 @@ def scheduler(value, what, base=None, spec=None):
     s = str(value).strip()
     if "://" not in s:
         raise InputError(f"{what} must be an address like tcp://host:8786, got {value!r}")
+    return s
+
+
+def size_px(value, what, base=None, spec=None):
+    """``WIDTH,HEIGHT`` in whole pixels, 8 to 8000 a side."""
+    vals = syntax.parse_number_list(value, what, 2)
+    if any(v != int(v) or not 8 <= v <= 8000 for v in vals):
+        raise InputError(f"{what} {value!r} must be two whole numbers WIDTH,HEIGHT between 8 and 8000 pixels")
+    return tuple(int(v) for v in vals)
+
+
+def incidence(value, what, base=None, spec=None):
+    return check_range(_num(value, what), 0, 90, what, unit="degrees from the surface normal (0 = straight at the "
+                                                          "surface, 90 = grazing)")
+
+
+def refractive_index(value, what, base=None, spec=None):
+    v = _num(value, what)
+    if v <= 0:
+        raise InputError(f"{what} {v:g} must be a positive number: the refractive index of the reflecting medium "
+                         "relative to air, e.g. 1.333 for water, 1.5 for glass")
+    if v <= 1:
+        raise InputError(f"{what} {v:g} is not above 1: a surface reflects glare toward the camera only from a "
+                         "denser medium (water 1.333, glass 1.5); give the index relative to air")
+    if v > 5:
+        raise InputError(f"{what} {v:g} is above 5; dielectric surfaces lie between 1.3 and 2.5 (metals are not "
+                         "described by a real index)")
+    return v
+
+
+def sweep(value, what, base=None, spec=None):
+    return syntax.parse_sweep(value, what)
+
+
+def time_sweep(value, what, base=None, spec=None):
+    return syntax.parse_time_sweep(value, what)
+
+
+def port(value, what, base=None, spec=None):
+    v = _num(value, what)
+    if v != int(v) or not 0 <= v <= 65535:
+        raise InputError(f"{what} must be a port number from 0 to 65535 (0: any free port), got {value!r}")
+    return int(v)
+
+
+def host(value, what, base=None, spec=None):
+    s = str(value).strip()
+    if not s or any(ch.isspace() or ch in "/?#@" for ch in s):
+        raise InputError(f"{what} must be an address of this machine such as 127.0.0.1, got {value!r}")
     return s

@@ -34,7 +34,8 @@ def _field(name: str, entry: dict):
     if entry.get("multiple") and default is None:
         default = ()
     spec = {"parse": getattr(parsers, entry["parse"]), "help": entry["help"], "metavar": entry.get("metavar"),
-            "choices": entry.get("choices"), "multiple": bool(entry.get("multiple")), "flag": "--" + name.replace("_", "-")}
+            "choices": entry.get("choices"), "multiple": bool(entry.get("multiple")), "flag": "--" + name.replace("_", "-"),
+            "flag_value": entry.get("flag_value")}
     return name, object, field(default=default, metadata=spec)
 
 
@@ -54,15 +55,21 @@ OutputSettings = _group("output", "OutputSettings")
 GeometrySettings = _group("geometry", "GeometrySettings")
 SkySettings = _group("sky", "SkySettings")
 AdviseSettings = _group("advise", "AdviseSettings")
+PlanSettings = _group("plan", "PlanSettings")
+GlareSettings = _group("glare", "GlareSettings")
+RingSettings = _group("ring", "RingSettings")
 CalibrateSettings = _group("calibrate", "CalibrateSettings")
 DiscoverySettings = _group("discovery", "DiscoverySettings")
 ReportSettings = _group("report", "ReportSettings")
 ClusterSettings = _group("cluster", "ClusterSettings")
+WorkbenchSettings = _group("workbench", "WorkbenchSettings")
 
 #: group name (TOML table) -> settings class
 GROUPS = {"read": ReadSettings, "mosaic": MosaicSettings, "estimate": EstimateSettings, "output": OutputSettings,
-          "geometry": GeometrySettings, "sky": SkySettings, "advise": AdviseSettings, "calibrate": CalibrateSettings,
-          "discovery": DiscoverySettings, "report": ReportSettings, "cluster": ClusterSettings}
+          "geometry": GeometrySettings, "sky": SkySettings, "advise": AdviseSettings, "plan": PlanSettings,
+          "glare": GlareSettings, "ring": RingSettings, "calibrate": CalibrateSettings,
+          "discovery": DiscoverySettings, "report": ReportSettings, "cluster": ClusterSettings,
+          "workbench": WorkbenchSettings}
 
 _GROUP_OF = {f.name: g for g, cls in GROUPS.items() for f in fields(cls)}
 
@@ -98,10 +105,14 @@ class Settings:
     geometry: GeometrySettings = field(default_factory=GeometrySettings)
     sky: SkySettings = field(default_factory=SkySettings)
     advise: AdviseSettings = field(default_factory=AdviseSettings)
+    plan: PlanSettings = field(default_factory=PlanSettings)
+    glare: GlareSettings = field(default_factory=GlareSettings)
+    ring: RingSettings = field(default_factory=RingSettings)
     calibrate: CalibrateSettings = field(default_factory=CalibrateSettings)
     discovery: DiscoverySettings = field(default_factory=DiscoverySettings)
     report: ReportSettings = field(default_factory=ReportSettings)
     cluster: ClusterSettings = field(default_factory=ClusterSettings)
+    workbench: WorkbenchSettings = field(default_factory=WorkbenchSettings)
     #: option names given explicitly (not defaults)
     given: frozenset = frozenset()
 

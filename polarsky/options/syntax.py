@@ -9,16 +9,20 @@ from __future__ import annotations
 
 import datetime as _dt
 import math
+import re
 
 import numpy as np
 
 from .._shared.checks import parse_number
 from ..errors import InputError
 
-__all__ = ["parse_angle_list", "format_angle_list", "parse_number_list", "parse_when", "MAX_LIST_ITEMS"]
+__all__ = ["parse_angle_list", "format_angle_list", "parse_number_list", "parse_when", "parse_sweep",
+           "parse_time_sweep", "sweep_times", "MAX_LIST_ITEMS", "MAX_SWEEP_STEPS"]
 
 #: Longest list an angle range may expand to.
 MAX_LIST_ITEMS = 10_000
+#: Most steps a sweep (``--sweep``, ``--sweep-yaw``, ``--sweep-time``) may take.
+MAX_SWEEP_STEPS = 1000
 
 
 def parse_angle_list(value, what: str = "--angles") -> tuple:
@@ -82,7 +86,7 @@ def format_angle_list(angles) -> str:
 def parse_number_list(value, what: str, count: int | None = None) -> tuple:
     """Numbers separated by commas (``"1024.5,768"``) or a sequence; ``count`` of them if given.
 
-    >>> parse_number_list("1024.5, 768", "--circle-centre-px", 2)
+    >>> parse_number_list("1024.5, 768", "--circle-center-px", 2)
     (1024.5, 768.0)
     """
     if isinstance(value, (list, tuple, np.ndarray)):
@@ -121,3 +125,97 @@ def parse_when(value, what: str = "--when") -> _dt.datetime:
         raise InputError(f"{what} {value!s} has no UTC offset; add one, e.g. {value!s}+02:00 or {value!s}Z "
                          "(a time without offset is not taken as UTC)")
     return t
+
+
+def _steps(start, end, step, what, value) -> int:
+    if not step > 0 or end < start:
+        raise InputError(f"{what} {value!r} needs START <= END and a STEP above 0")
+    n = int(math.floor((end - start) / step + 1e-9)) + 1
+    if n > MAX_SWEEP_STEPS:
+        raise InputError(f"{what} {value!r} makes {n} steps, more than {MAX_SWEEP_STEPS}; give a larger STEP")
+    return n
+
+
+def parse_sweep(value, what: str = "--sweep") -> tuple:
+    """The values of a sweep ``START,END,STEP`` (END included when it falls on a step).
+
+    Raises
+    ------
+    InputError
+        Not three numbers, STEP <= 0, END < START, or more than :data:`MAX_SWEEP_STEPS` steps.
+
+    Examples
+    --------
+    >>> parse_sweep("0,90,45", "--sweep-yaw")
+    (0.0, 45.0, 90.0)
+    """
+    try:
+        start, end, step = parse_number_list(value, what, 3)
+    except InputError:
+        raise InputError(f"{what} {value!r} must be START,END,STEP (three numbers separated by commas), "
+                         "e.g. 0,85,5") from None
+    n = _steps(start, end, step, what, value)
+    return tuple(float(start + k * step) for k in range(n))
+
+
+_CLOCK = re.compile(r"^\s*(\d{1,2}):(\d{2})(?::(\d{2}))?\s*$")
+_STEP = re.compile(r"^\s*(\d+(?:\.\d*)?)\s*(min|h)?\s*$", re.I)
+
+
+def parse_time_sweep(value, what: str = "--sweep-time") -> tuple:
+    """A sweep over the day ``START,END,STEP``: ``(start, end, step)`` as written.
+
+    START and END are clock times ``HH:MM[:SS]`` (returned as :class:`datetime.time`, to be
+    put on the date and UTC offset of ``--when``) or ISO 8601 times with a UTC offset
+    (aware :class:`datetime.datetime`); STEP is minutes (``30``, ``30min``) or hours
+    (``1h``), returned as a :class:`datetime.timedelta`.
+
+    Examples
+    --------
+    >>> a, b, step = parse_time_sweep("06:00,21:00,30min")
+    >>> a.isoformat(), b.isoformat(), step.total_seconds()
+    ('06:00:00', '21:00:00', 1800.0)
+    """
+    parts = [p.strip() for p in str(value).split(",")]
+    if len(parts) != 3:
+        raise InputError(f"{what} {value!r} must be START,END,STEP, e.g. 06:00,21:00,30 (minutes) or "
+                         "2026-06-21T06:00+02:00,2026-06-21T21:00+02:00,1h")
+
+    def one(text):
+        m = _CLOCK.match(text)
+        if m:
+            hh, mm, ss = int(m.group(1)), int(m.group(2)), int(m.group(3) or 0)
+            if hh > 23 or mm > 59 or ss > 59:
+                raise InputError(f"{what} {value!r}: {text!r} is not a clock time HH:MM")
+            return _dt.time(hh, mm, ss)
+        try:
+            return parse_when(text, what)
+        except InputError:
+            raise InputError(f"{what} {value!r}: {text!r} is neither a clock time HH:MM nor an ISO 8601 time with a "
+                             "UTC offset") from None
+
+    start, end = one(parts[0]), one(parts[1])
+    if isinstance(start, _dt.time) != isinstance(end, _dt.time):
+        raise InputError(f"{what} {value!r}: give START and END both as clock times or both as ISO 8601 times")
+    m = _STEP.match(parts[2])
+    if not m or float(m.group(1)) <= 0:
+        raise InputError(f"{what} step {parts[2]!r} must be a positive number of minutes (30, 30min) or hours (1h)")
+    step = _dt.timedelta(minutes=float(m.group(1)) * (60.0 if (m.group(2) or "").lower() == "h" else 1.0))
+    return start, end, step
+
+
+def sweep_times(spec, when: _dt.datetime, what: str = "--sweep-time") -> list:
+    """The aware times of a :func:`parse_time_sweep` result; clock times on ``when``'s date and offset.
+
+    Examples
+    --------
+    >>> spec = parse_time_sweep("18:00,19:00,30")
+    >>> [t.strftime("%H:%M") for t in sweep_times(spec, parse_when("2026-06-21T12:00+02:00"))]
+    ['18:00', '18:30', '19:00']
+    """
+    start, end, step = spec
+    if isinstance(start, _dt.time):
+        start, end = (when.replace(hour=t.hour, minute=t.minute, second=t.second, microsecond=0) for t in (start, end))
+    n = _steps(0.0, (end - start).total_seconds(), step.total_seconds(), what,
+               f"{start.isoformat()},{end.isoformat()},{step}")
+    return [start + k * step for k in range(n)]

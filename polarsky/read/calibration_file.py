@@ -44,18 +44,16 @@ def read_calibration(path):
     InputError
         The file is missing, unreadable or not a polarsky calibration.
     """
-    import netCDF4
+    import h5py
 
     from ..estimate.calibration import Calibration
 
     p = find_calibration(path)
     try:
-        with netCDF4.Dataset(p, "r") as f:
-            attrs = decode_attrs({k: f.getncattr(k) for k in f.ncattrs()})
-            data = {}
-            for name, v in f.variables.items():
-                v.set_auto_maskandscale(False)
-                data[name] = np.asarray(v[...])
+        with h5py.File(p, "r") as f:
+            attrs = decode_attrs(dict(f.attrs))
+            data = {name: np.asarray(v[...]) for name, v in f.items()
+                    if isinstance(v, h5py.Dataset) and name not in ("channel", "position", "y", "x")}
     except Exception as exc:  # noqa: BLE001 - any decoding failure is a bad file
         raise InputError(f"calibration file {p} cannot be read ({type(exc).__name__}); give the calibration.nc "
                          "written by 'polarsky calibrate'") from None

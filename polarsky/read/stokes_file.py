@@ -41,11 +41,12 @@ def decode_attrs(attrs: dict) -> dict:
 
 def open_stokes(path):
     """The ``xarray.Dataset`` of a ``stokes.nc`` (loaded into memory, file closed)."""
+    import h5netcdf  # noqa: F401 - the engine xarray reads NetCDF-4 files with
     import xarray as xr
 
     _check(path)
     try:
-        with xr.open_dataset(path, engine="netcdf4") as ds:
+        with xr.open_dataset(path, engine="h5netcdf") as ds:
             return ds.load()
     except Exception as exc:  # noqa: BLE001 - any decoding failure is a bad file
         raise InputError(f"{path} cannot be read as a Stokes result ({type(exc).__name__}); give a stokes.nc written "
@@ -70,23 +71,21 @@ def read_stokes(path) -> dict:
         bool, other maps present (``sigma_dolp``, ``sigma_aolp``, ``dolp_unbiased``,
         ``residual``), ``channels`` and ``attrs`` (decoded).
     """
-    import netCDF4
+    import h5py
 
     _check(path)
     try:
-        with netCDF4.Dataset(path, "r") as f:
-            var = f.variables
-            miss = [k for k in ("S0", "S1", "S2") if k not in var]
+        with h5py.File(path, "r") as f:
+            miss = [k for k in ("S0", "S1", "S2") if k not in f]
             if miss:
                 raise InputError(f"{path} lacks {', '.join(miss)}; give a stokes.nc written by 'polarsky stokes'")
             arr = {}
-            for k, v in var.items():
-                if tuple(v.dimensions) == ("channel", "y", "x"):
-                    v.set_auto_maskandscale(False)
-                    arr[k] = np.asarray(v[...])
-            channels = [str(c) for c in var["channel"][...]] if "channel" in var else [
+            for k, v in f.items():
+                if isinstance(v, h5py.Dataset) and v.ndim == 3 and k not in ("channel", "y", "x"):
+                    arr[k] = v[...]
+            channels = [str(c) for c in f["channel"].asstr()[...]] if "channel" in f else [
                 f"c{i}" for i in range(arr["S0"].shape[0])]
-            attrs = decode_attrs({k: f.getncattr(k) for k in f.ncattrs()})
+            attrs = decode_attrs(dict(f.attrs))
     except InputError:
         raise
     except Exception as exc:  # noqa: BLE001 - any decoding failure is a bad file

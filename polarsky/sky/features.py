@@ -4,11 +4,11 @@ The ring radii are computed from refractive indices, never hard-coded:
 
 * halos: minimum deviation of a prism, ``D = 2 arcsin(n sin(A/2)) - A``, for the 60-degree
   (alternate side faces) and 90-degree (side + basal face) wedges of hexagonal ice;
-  ice index from the Warren & Brandt (2008) compilation;
+  ice index from the Warren & Brandt (2008) compilation (:mod:`polarsky.core.refractive_index`);
 * rainbows: the Descartes (minimum deviation) ray with ``k`` internal reflections,
   ``cos^2 i = (n^2 - 1) / (k (k + 2))``, ``D_k = 2 (i - r) + k (180 - 2 r)``; the bow's
   radius about the antisolar point is ``180 - D_1`` (primary) and ``D_2 - 180``
-  (secondary); water index from the IAPWS (1997) formulation.
+  (secondary); water index from the IAPWS (1997) formulation (the same module).
 
 References
 ----------
@@ -27,83 +27,15 @@ from __future__ import annotations
 
 import numpy as np
 
+from ..core.refractive_index import N_AIR, refractive_index_ice_warren2008, refractive_index_water_iapws1997
+
 __all__ = [
-    "refractive_index_water_iapws1997",
-    "refractive_index_ice_warren2008",
-    "ICE_INDEX_WARREN2008",
     "prism_minimum_deviation_deg",
     "descartes_ray",
     "rainbow_radius_deg",
     "halo_radius_deg",
     "feature_bands",
-    "N_AIR",
 ]
-
-#: Refractive index of sea-level air at 550 nm, (n - 1) = 2.7783e-4, from the Peck & Reeder
-#: (1972) dispersion formula as given by Bodhaine et al. (1999), eq. (4).
-N_AIR = 1.00027783
-
-# IAPWS R9-97 coefficients (Table 1 of the release).
-_IAPWS_A = (0.244257733, 9.74634476e-3, -3.73234996e-3, 2.68678472e-4,
-            1.58920570e-3, 2.45934259e-3, 0.900704920, -1.66626219e-2)
-_IAPWS_LUV = 0.2292020
-_IAPWS_LIR = 5.432937
-
-
-def refractive_index_water_iapws1997(wavelength_um, temperature_k=293.15, density_kg_m3=998.2067):
-    """Refractive index of water (relative to vacuum) by IAPWS R9-97.
-
-    Parameters
-    ----------
-    wavelength_um : float or array_like
-        Vacuum wavelength, micrometres (valid 0.2 - 1.1).
-    temperature_k : float
-        Temperature, kelvin (valid 261.15 - 773.15).
-    density_kg_m3 : float
-        Density, kg/m^3 (default: liquid water at 20 deg C and 0.1 MPa).
-
-    Returns
-    -------
-    float or ndarray
-
-    References
-    ----------
-    .. [1] IAPWS R9-97 (1997), eq. (7) and Table 1.
-
-    Examples
-    --------
-    >>> round(float(refractive_index_water_iapws1997(0.5893, 298.15, 997.047435)), 8)
-    1.33285819
-    """
-    lam = np.asarray(wavelength_um, dtype=np.float64) / 0.589
-    t = float(temperature_k) / 273.15
-    rho = float(density_kg_m3) / 1000.0
-    a = _IAPWS_A
-    l2 = lam * lam
-    rhs = (a[0] + a[1] * rho + a[2] * t + a[3] * l2 * t + a[4] / l2
-           + a[5] / (l2 - _IAPWS_LUV ** 2) + a[6] / (l2 - _IAPWS_LIR ** 2) + a[7] * rho ** 2)
-    big_a = rho * rhs
-    n = np.sqrt((1 + 2 * big_a) / (1 - big_a))
-    return float(n) if n.ndim == 0 else n
-
-
-#: Real refractive index of ice, Warren & Brandt (2008) compilation (wavelength nm -> n).
-ICE_INDEX_WARREN2008 = {400: 1.3194, 450: 1.3157, 500: 1.3130, 550: 1.3110,
-                        590: 1.3097, 600: 1.3094, 650: 1.3080, 700: 1.3069}
-
-
-def refractive_index_ice_warren2008(wavelength_nm):
-    """Real refractive index of ice, interpolated in the Warren & Brandt (2008) table (400-700 nm).
-
-    References
-    ----------
-    .. [1] Warren & Brandt (2008), J. Geophys. Res. 113, D14220.
-    """
-    lam = np.asarray(wavelength_nm, dtype=np.float64)
-    keys = np.array(sorted(ICE_INDEX_WARREN2008))
-    vals = np.array([ICE_INDEX_WARREN2008[k] for k in keys])
-    n = np.interp(lam, keys, vals)
-    return float(n) if n.ndim == 0 else n
 
 
 def prism_minimum_deviation_deg(n, apex_deg):

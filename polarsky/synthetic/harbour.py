@@ -26,7 +26,8 @@ from ..core.fresnel import fresnel_reflectance, reflection_stokes
 from ..core.stokes import intensity_at
 from ..core.transfer import linear_to_srgb
 
-__all__ = ["DemoScene", "render_scene", "write_bracket", "write_sky_bracket", "WATER_BOX", "PLATE_BOX"]
+__all__ = ["DemoScene", "render_scene", "write_bracket", "write_sky_bracket", "WATER_BOX", "PLATE_BOX",
+           "water_incidence_deg"]
 
 WIDTH, HEIGHT = 480, 320
 HORIZON_ROW = 118
@@ -58,15 +59,30 @@ class DemoScene:
         return {"region": region, "contrast": contrast}
 
 
+def _rows_below_horizon(yy, xx):
+    """Rows measured perpendicular to the tilted horizon (negative above it)."""
+    roll = np.radians(CAMERA_ROLL_DEG)
+    return (yy - HORIZON_ROW) * np.cos(roll) + (xx - (WIDTH - 1) / 2) * np.sin(roll)
+
+
+def _incidence_deg(v):
+    """Angle of incidence on the water (82 deg at the horizon to 50 deg at the bottom)."""
+    return 82.0 - 32.0 * np.clip(v / (HEIGHT - HORIZON_ROW), 0, 1)
+
+
+def water_incidence_deg() -> float:
+    """Mean angle of incidence on the water inside WATER_BOX (the region whose glare is planned)."""
+    x0, y0, x1, y1 = WATER_BOX
+    yy, xx = np.mgrid[y0:y1, x0:x1].astype(np.float64)
+    return round(float(np.mean(_incidence_deg(_rows_below_horizon(yy, xx)))), 1)
+
+
 def render_scene(seed: int = 7) -> DemoScene:
     """Render the true Stokes maps (3, 3, H, W) of the invented harbour scene."""
     rng = np.random.default_rng(seed)
     h, w = HEIGHT, WIDTH
     yy, xx = np.mgrid[0:h, 0:w].astype(np.float64)
-    roll = np.radians(CAMERA_ROLL_DEG)
-    # rows measured perpendicular to the tilted horizon
-    cx = (w - 1) / 2
-    v = (yy - HORIZON_ROW) * np.cos(roll) + (xx - cx) * np.sin(roll)
+    v = _rows_below_horizon(yy, xx)
     colour_sky = np.array([0.55, 0.72, 1.0])
     colour_wall = np.array([0.62, 0.42, 0.3])
     colour_plate = np.array([0.95, 0.7, 0.2])
@@ -86,7 +102,7 @@ def render_scene(seed: int = 7) -> DemoScene:
     # water: sky reflected by Fresnel (incidence from about 82 deg at the horizon to 50 deg
     # at the bottom), plus light from below carrying the plate
     is_water = v >= 0
-    incidence = 82.0 - 32.0 * np.clip(v / (h - HORIZON_ROW), 0, 1)
+    incidence = _incidence_deg(v)
     ripple = 1.5 * np.sin(xx / 9.0 + 0.7 * np.sin(yy / 5.0)) + 0.8 * np.sin(yy / 3.1)
     s_axis = CAMERA_ROLL_DEG + ripple  # the s direction lies along the (tilted) surface
     sky_seen = np.stack([0.9 * np.ones((h, w)), 0.2 * np.ones((h, w)) * np.cos(np.radians(200)),

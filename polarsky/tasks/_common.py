@@ -16,7 +16,8 @@ import numpy as np
 
 from ..errors import PolarskyWarning
 
-__all__ = ["resolve_settings", "open_source", "Opened", "collect_warnings", "check_estimate", "IMPOSSIBLE_FRACTION"]
+__all__ = ["resolve_settings", "open_source", "Opened", "collect_warnings", "publish_result", "check_estimate",
+           "IMPOSSIBLE_FRACTION"]
 
 #: Refuse a result when more than this fraction of a channel's valid pixels had a DoLP above 1
 #: beyond their uncertainty (fewer are masked with a warning).
@@ -46,6 +47,8 @@ class Opened:
         The bracket (brackets only).
     inputs : list of str
     timing : dict
+    calibration : Calibration or None
+        The calibration applied (``--calibration``).
     """
 
     source: object
@@ -54,6 +57,7 @@ class Opened:
     bracket: object = None
     inputs: list = field(default_factory=list)
     timing: dict = field(default_factory=dict)
+    calibration: object = None
 
 
 def load_calibration(value):
@@ -77,8 +81,16 @@ def open_source(frames, settings, *, compiled: bool | None = None) -> Opened:
     noise = NoiseModel(gain_e_per_dn=est.gain_e_per_dn, read_noise_dn=est.read_noise_dn, source=est.noise)
     cal = load_calibration(est.calibration)
     if settings.mosaic.mosaic is not None:
-        return _open_mosaic(frames, settings, cal, noise, compiled)
-    return _open_bracket(frames, settings, cal, noise, compiled)
+        if cal is not None and cal.kind == "ring":
+            from ..errors import InputError
+
+            raise InputError(f"--calibration {cal.source} is a filter-ring calibration; a mosaic camera has no filter "
+                             "ring: drop --calibration or give a flat or sky calibration of the camera")
+        opened = _open_mosaic(frames, settings, cal, noise, compiled)
+    else:
+        opened = _open_bracket(frames, settings, cal, noise, compiled)
+    opened.calibration = cal
+    return opened
 
 
 def _open_bracket(frames, settings, cal, noise, compiled) -> Opened:
@@ -233,3 +245,16 @@ def collect_warnings(*, reemit: bool = True):
     if reemit:
         for w in caught:
             warnings.warn_explicit(w.message, w.category, w.filename, w.lineno)
+
+
+def publish_result(out_dir, result: dict, json_name: str, *, command: str, draw=None) -> dict:
+    """Write ``result`` as ``json_name`` into ``out_dir`` with the files ``draw(folder)`` makes
+    (it returns their names), published whole; ``result["outputs"]`` lists them, JSON first."""
+    from ..write.jsonio import write_json
+    from ..write.stage import OutputStage
+
+    with OutputStage(out_dir, command=command) as stage:
+        result["outputs"] = [json_name] + (list(draw(stage.dir)) if draw is not None else [])
+        write_json(stage.path(json_name), result)
+        stage.publish()
+    return result

@@ -14,7 +14,7 @@ from ..conventions import SUN_CAUTION
 from ..errors import InputError
 from ._common import collect_warnings, resolve_settings
 
-__all__ = ["run_sky", "prepare_sky", "stokes_products", "check_daylight", "check_sky_settings",
+__all__ = ["run_sky", "prepare_sky", "stokes_products", "lens_of", "check_daylight", "check_sky_settings",
            "SUN_BELOW_HORIZON_DEG"]
 
 #: Sun elevations (apparent, degrees) below which a clear-sky comparison is refused: the
@@ -77,6 +77,17 @@ def check_sky_settings(settings) -> None:
         check_daylight(sun, tp)
 
 
+def lens_of(g, width: int, height: int, *, focal_px=None, focal_mm=None):
+    """The lens of the geometry settings ``g`` for a ``width`` x ``height`` frame (the focal
+    length in pixels or mm may come from elsewhere, e.g. EXIF)."""
+    from ..geometry.camera import make_lens
+
+    return make_lens(g.lens, width, height, hfov_deg=g.hfov_deg, focal_px=g.focal_px if focal_px is None else focal_px,
+                     focal_mm=g.focal_mm if focal_mm is None else focal_mm, sensor_width_mm=g.sensor_width_mm,
+                     distortion=g.distortion, fov_deg=g.fov_deg, circle_center_px=g.circle_center_px,
+                     circle_radius_px=g.circle_radius_px)
+
+
 def prepare_sky(frames, settings, *, stokes=None):
     """Stokes products, the sky geometry and the facts of time, place and lens.
 
@@ -86,7 +97,6 @@ def prepare_sky(frames, settings, *, stokes=None):
     geom : SkyGeometry
     info : dict
     """
-    from ..geometry.camera import make_lens
     from ..read.exif import read_metadata
     from ..sky.skymap import SkyGeometry
     from ..sky.sun import resolve_time_place, sun_position
@@ -111,9 +121,7 @@ def prepare_sky(frames, settings, *, stokes=None):
         elif "focal_35mm" in exif:
             # 35 mm equivalent focal length refers to the 43.27 mm diagonal (CIPA DC-008)
             focal_px, focal_source = exif["focal_35mm"] * np.hypot(w, h) / 43.2666, "exif FocalLengthIn35mmFilm"
-    lens = make_lens(g.lens, w, h, hfov_deg=g.hfov_deg, focal_px=focal_px, focal_mm=focal_mm,
-                     sensor_width_mm=g.sensor_width_mm, distortion=g.distortion, fov_deg=g.fov_deg,
-                     circle_centre_px=g.circle_centre_px, circle_radius_px=g.circle_radius_px)
+    lens = lens_of(g, w, h, focal_px=focal_px, focal_mm=focal_mm)
     polarizer = g.polarizer or str(products.get("attrs", {}).get("polarizer") or "front")
     if polarizer not in ("front", "sensor"):
         polarizer = "front"

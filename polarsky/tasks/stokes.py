@@ -104,10 +104,11 @@ def run_stokes(frames=(), out_dir=None, settings=None, *, progress: bool = False
     dict
         The summary (also written to ``summary.json``; docs/schemas/summary.schema.json).
     """
-    from ..estimate.runner import run_blocks
+    from ..estimate.runner import block_rows, run_blocks
     from ..estimate.sinks import PreviewSink, StatsSink
     from ..write.jsonio import write_json
     from ..write.netcdf import StokesWriter
+    from ..write.quantize import precision_for
     from ..write.stage import check_destination, open_stage
     from ..write.summary import build_summary
 
@@ -121,16 +122,20 @@ def run_stokes(frames=(), out_dir=None, settings=None, *, progress: bool = False
             stage.reserve(output_bytes(src.shape, len(src.channels), len(_names(src.n_analyzers)),
                                        pictures=settings.output.pictures))
             before = set(stage.outputs())
-            writer = StokesWriter(stage.path("stokes.nc"), shape=src.shape, channels=src.channels,
-                                  names=_names(src.n_analyzers), attrs={})
+            rows = block_rows(src.shape, len(src.channels))
+            out = settings.output
+            names = [n for n in _names(src.n_analyzers) if out.keep is None or n in out.keep]
+            writer = StokesWriter(stage.path("stokes.nc"), shape=src.shape, channels=src.channels, rows=rows,
+                                  names=names, attrs={}, precision=precision_for(out.precision),
+                                  full_scale=src.value_full_scale)
             preview = PreviewSink(src.shape)
             stats = StatsSink(src.shape, len(src.channels))
             try:
-                info = run_blocks(src, op.noise, [_Timed(writer), preview, stats], progress=progress)
+                info = run_blocks(src, op.noise, [_Timed(writer), preview, stats], rows=rows, progress=progress)
                 facts = _facts_after(op, info)
                 check_estimate(info, settings, src.channels)
                 t1 = time.perf_counter()
-                writer.set_attrs(facts)
+                writer.set_attrs({**facts, "precision": out.precision})
                 writer.commit()
             except BaseException:
                 writer.abort()

@@ -42,14 +42,14 @@ def write_calibration(path, cal: Calibration, *, inputs=(), method: str = "") ->
     with NetCDFFile(path, dims, attrs) as f:
         for name, d, a in arrays:
             units = "degree" if name.endswith("_deg") else "1"
-            f.variable(name, d, a.dtype.str[1:], units=units, long_name=name.replace("_", " "), data=a)
+            f.variable(name, d, a.dtype, units=units, long_name=name.replace("_", " "), data=a)
     return path
 
 
 def publish_calibration(out_dir, cal: Calibration, result: dict, *, command: str, inputs=(), method: str = "",
                         warnings=()) -> dict:
     """Write ``calibration.nc`` and ``calibration.json`` (``result`` plus warnings and outputs)
-    into ``out_dir``, published whole; returns ``result`` with ``calibration`` (the file's path)."""
+    into ``out_dir``, published whole; returns ``result`` with ``calibration_file`` (the file's path)."""
     from .jsonio import write_json
     from .stage import OutputStage
 
@@ -60,5 +60,5 @@ def publish_calibration(out_dir, cal: Calibration, result: dict, *, command: str
         result["outputs"] = ["calibration.json", "calibration.nc"]
         write_json(stage.path("calibration.json"), result)
         stage.publish()
-    result["calibration"] = str(Path(out_dir) / "calibration.nc")
+    result["calibration_file"] = str(Path(out_dir) / "calibration.nc")
     return result

@@ -33,10 +33,8 @@ def write_sky_nc(path, *, dolp_model, aolp_model, dolp_res, aolp_res, maps, reas
     attrs = {k: v for k, v in result.items() if k not in ("features", "warnings", "outputs")}
     attrs["created"] = _dt.datetime.now(_dt.timezone.utc).isoformat(timespec="seconds")
     c, h, w = np.asarray(dolp_model).shape
-    with NetCDFFile(path, {"channel": c, "y": h, "x": w}, {**base_attrs("polarsky sky comparison"), **attrs}) as f:
-        f.coordinate("channel", list(channels))
-        f.coordinate("y", np.arange(h))
-        f.coordinate("x", np.arange(w))
+    dims = {"channel": list(channels), "y": np.arange(h), "x": np.arange(w)}
+    with NetCDFFile(path, dims, {**base_attrs("polarsky sky comparison"), **attrs}) as f:
         for name, (dims, arr, units, long_name) in variables.items():
             f.variable(name, dims, "f4", units=units, long_name=long_name, fill=np.float32(np.nan),
                        data=np.asarray(arr, dtype=np.float32))

@@ -15,10 +15,10 @@ from __future__ import annotations
 
 import contextlib
 import datetime as _dt
-import errno
 import hashlib
 import json
 import os
+import re
 import shutil
 import tempfile
 import time
@@ -27,10 +27,11 @@ from pathlib import Path
 from .._version import __version__
 from .._shared.checks import check_utf8_path
 from ..errors import InputError
+from .space import folder_bytes, free_bytes, human_size, is_write_error, write_error
 from .swap import STAGING, clean_leftovers, hidden_name, swap_in
 
 __all__ = ["OutputStage", "Into", "open_stage", "check_destination", "MARKER", "check_out_dir", "folder_lock",
-           "swap_in", "FolderLock", "listed_files", "write_error", "human_size"]
+           "swap_in", "FolderLock", "listed_files", "published_path", "write_error", "human_size"]
 
 #: Hidden file that marks a folder written by polarsky (and lists the run's outputs).
 MARKER = ".polarsky-run.json"
@@ -124,6 +125,20 @@ def folder_lock(folder, *, what: str = "--out") -> FolderLock:
     return FolderLock(folder, what=what)
 
 
+_STAGED = re.compile(rf"^\.(?P<name>.+)\.{STAGING}-\d+-[0-9a-f]{{8}}$")
+
+
+def published_path(path) -> Path:
+    """Where a path that a run recorded inside its staging folder lies once the folder is
+    published (``path`` itself when it is not inside a staging folder).
+
+    >>> str(published_path("/data/.out.polarsky-staging-412-0a1b2c3d/bracket/f_000deg.png"))
+    '/data/out/bracket/f_000deg.png'
+    """
+    parts = Path(path).parts
+    return Path(*[m.group("name") if (m := _STAGED.match(p)) else p for p in parts])
+
+
 def listed_files(folder: Path) -> list:
     """Files below ``folder`` (relative names, sorted), hidden files and folders left out."""
     return sorted(p.relative_to(folder).as_posix() for p in folder.rglob("*")
@@ -147,7 +162,7 @@ class _Destination:
             Naming the folder, the space needed and the space free.
         """
         self.expected_bytes = int(nbytes)
-        free = _free_bytes(self.dir)
+        free = free_bytes(self.dir)
         if free is not None and free < nbytes:
             raise InputError(f"not enough space on the device of {self.out_dir}: this run writes about "
                              f"{human_size(nbytes)} and {human_size(free)} are free; free some space or choose "
@@ -158,12 +173,41 @@ class _Destination:
 
         The free space the message gives is measured after this run's files were removed.
         """
-        write = isinstance(exc, OSError) and _is_write_error(exc, self.dir)
-        written = _folder_bytes(self.dir) if write else 0
+        write = isinstance(exc, OSError) and is_write_error(exc, self.dir)
+        written = folder_bytes(self.dir) if write else 0
         self.discard()
         if not write:
             return None
         return write_error(exc, self.out_dir, staging=self.dir, need=self.expected_bytes, written=written)
+
+
+def relocate_records(staged: Path, out: Path) -> None:
+    """Rewrite paths inside ``staged`` recorded in its files to the same paths under ``out``.
+
+    Text outputs (``.json``, ``.csv``, ``.html``) are rewritten as text (also the JSON-escaped
+    form of the path); NetCDF files have their text attributes rewritten.
+    """
+    old, new = str(staged), str(out)
+    pairs = [(old, new), (json.dumps(old)[1:-1], json.dumps(new)[1:-1])]
+    for p in staged.rglob("*"):
+        if not p.is_file():
+            continue
+        if p.suffix in (".json", ".csv", ".html"):
+            text = p.read_text(encoding="utf-8")
+            if old in text or pairs[1][0] in text:
+                for a, b in pairs:
+                    text = text.replace(a, b)
+                p.write_text(text, encoding="utf-8")
+        elif p.suffix == ".nc":
+            import h5py
+
+            with h5py.File(p, "r+") as f:
+                for k, v in list(f.attrs.items()):
+                    text = v.decode() if isinstance(v, bytes) else v
+                    if isinstance(text, str) and any(a in text for a, _ in pairs):
+                        for a, b in pairs:
+                            text = text.replace(a, b)
+                        f.attrs[k] = text
 
 
 class OutputStage(_Destination):
@@ -177,15 +221,20 @@ class OutputStage(_Destination):
         The command writing it (recorded in the marker).
     inputs : sequence of path-like
         The run's inputs (never inside ``out_dir``).
+    relocate : bool
+        The run reads files it wrote into the folder itself (the demo renders its brackets
+        there): on publishing, paths recorded inside the staging folder (in ``.json``,
+        ``.csv``, ``.html`` files and NetCDF attributes) are rewritten to where they will lie.
 
     Use as a context manager: on an exception the staging folder is removed and the earlier
     result stays as it was.
     """
 
-    def __init__(self, out_dir, *, command: str = "", inputs=()):
+    def __init__(self, out_dir, *, command: str = "", inputs=(), relocate: bool = False):
         self.out_dir = check_out_dir(out_dir, inputs=inputs)
         self.command = command
         self.expected_bytes = None
+        self.relocate = relocate
         self.lock = FolderLock(self.out_dir)
         self.lock.acquire()
         try:
@@ -215,6 +264,8 @@ class OutputStage(_Destination):
         marker = {"command": self.command, "software_version": __version__, "outputs": names,
                   "created": _dt.datetime.now(_dt.timezone.utc).isoformat(timespec="seconds")}
         try:
+            if self.relocate:
+                relocate_records(self.dir, self.out_dir)
             (self.dir / MARKER).write_text(json.dumps(marker, indent=1) + "\n", encoding="utf-8")
             swap_in(self.dir, self.out_dir)
         except OSError as exc:
@@ -237,82 +288,6 @@ class OutputStage(_Destination):
         if error is not None:
             raise error from None
         return False
-
-
-def human_size(nbytes) -> str:
-    """Bytes in words: ``"512 bytes"``, ``"12.3 MB"``, ``"4.1 GB"`` (powers of 1000).
-
-    >>> human_size(512), human_size(12_345_678), human_size(4.1e9)
-    ('512 bytes', '12.3 MB', '4.1 GB')
-    """
-    n = float(nbytes)
-    for unit in ("bytes", "kB", "MB", "GB", "TB"):
-        if n < 1000 or unit == "TB":
-            return f"{n:.0f} {unit}" if unit == "bytes" else f"{n:.1f} {unit}"
-        n /= 1000.0
-    return f"{n:.1f} TB"
-
-
-def _folder_bytes(folder: Path) -> int:
-    try:
-        return sum(p.stat().st_size for p in Path(folder).rglob("*") if p.is_file())
-    except OSError:
-        return 0
-
-
-def _free_bytes(folder: Path) -> int | None:
-    try:
-        return shutil.disk_usage(folder).free
-    except OSError:
-        return None
-
-
-_WRITE_ERRNOS = (errno.ENOSPC, errno.EDQUOT, errno.EROFS, errno.EFBIG)
-
-
-def _inside(path, folder: Path | None) -> str | None:
-    """``path`` relative to ``folder`` (text), or None when it is not inside."""
-    if path is None or folder is None:
-        return None
-    try:
-        return Path(os.fsdecode(path)).resolve().relative_to(folder.resolve()).as_posix()
-    except (ValueError, OSError, TypeError):
-        return None
-
-
-def _is_write_error(exc: OSError, staging: Path) -> bool:
-    return exc.errno in _WRITE_ERRNOS or _inside(exc.filename, staging) is not None
-
-
-def write_error(exc: OSError, out: Path, *, staging: Path | None = None, need=None, written=None) -> InputError:
-    """The one-line error of a failed write into ``out`` (never naming a staging folder).
-
-    Parameters
-    ----------
-    exc : OSError
-    out : Path
-        The output folder the user named.
-    staging : Path, optional
-        Where the files were being written (names inside it are given relative to ``out``).
-    need, written : int, optional
-        Bytes the run writes in all, and bytes it had written when it failed.
-    """
-    name = _inside(exc.filename, staging)
-    where = f" while writing {name}" if name else ""
-    if exc.errno in (errno.ENOSPC, errno.EDQUOT):
-        free = _free_bytes(out.parent if not out.exists() else out)
-        if need:
-            size = f"this run writes about {human_size(need)}"
-        elif written:
-            size = f"this run needs more than the {human_size(written)} it had written"
-        else:
-            size = "this run needs more space"
-        left = f" ({human_size(free)} free)" if free is not None else ""
-        return InputError(f"no space left on the device of {out}{where}: {size}{left}; free some space or choose "
-                          "another --out")
-    if exc.errno in (errno.EACCES, errno.EPERM, errno.EROFS):
-        return InputError(f"cannot write to {out}{where} ({exc.strerror}); choose a folder you can write to")
-    return InputError(f"cannot write to {out}{where} ({exc.strerror or type(exc).__name__})")
 
 
 class Into(_Destination):

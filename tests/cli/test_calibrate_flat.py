@@ -36,7 +36,7 @@ def test_cli_calibrate_flat_in_process(tmp_path, capsys):
     assert rc == 0
     summary = json.loads(capsys.readouterr().out)
     assert summary["n_frames"] == 12 and summary["n_dark_frames"] == 1
-    assert summary["calibration"] == str(out / "calibration.nc")
+    assert summary["calibration_file"] == str(out / "calibration.nc")
     assert summary["outputs"] == ["calibration.json", "calibration.nc"]
     assert sorted(p.name for p in out.iterdir() if not p.name.startswith(".")) == summary["outputs"]
     assert json.loads((out / "calibration.json").read_text())["positions"] == summary["positions"]

@@ -3,6 +3,7 @@
 from __future__ import annotations
 
 import json
+import pathlib
 import subprocess
 import sys
 
@@ -37,3 +38,9 @@ def test_demo_subprocess(tmp_path):
     for sub in ("stokes", "advice", "advice-protect", "sky"):
         assert (tmp_path / "d" / sub).is_dir()
     assert (tmp_path / "d" / "stokes" / "polarization.png").stat().st_size > 10_000
+    # the frames each result records are where they lie once the demo folder is published
+    summary = json.loads((tmp_path / "d" / "stokes" / "summary.json").read_text())
+    assert summary["inputs"] and all(pathlib.Path(p).is_file() for p in summary["inputs"])
+    from polarsky.read.stokes_file import read_stokes
+
+    assert read_stokes(tmp_path / "d" / "stokes" / "stokes.nc")["attrs"]["inputs"] == summary["inputs"]

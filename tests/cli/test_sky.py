@@ -70,7 +70,7 @@ def test_calibrate_sky_writes_cal_nc(stokes_nc, tmp_path, capsys):
     (["--distortion", "0.1,0.2"], "4, 5 or 8"),
     (["--sky-mask", "/nonexistent/m.png"], "neither a box .* nor an existing mask image"),
     (["--pitch-deg", "120"], "must lie in \\[-90, 90\\]"),
-    (["--circle-centre-px", "1,2,3"], "must hold 2 numbers"),
+    (["--circle-center-px", "1,2,3"], "must hold 2 numbers"),
 ])
 def test_sky_bad_input_exit_2(frames, tmp_path, capsys, extra, match):
     rc = main(["sky", *frames, *GEO, *extra, "--out", str(tmp_path / "bad"), "--no-pictures"])

@@ -110,7 +110,7 @@ def test_fisheye_outside_circle_sees_nothing():
 
 
 def test_fisheye_custom_circle():
-    lens = make_lens("fisheye-equisolid", 64, 48, fov_deg=150, circle_centre_px=(30, 20), circle_radius_px=18)
+    lens = make_lens("fisheye-equisolid", 64, 48, fov_deg=150, circle_center_px=(30, 20), circle_radius_px=18)
     u, v, _ = lens.project(np.array([[0.0], [0.0], [1.0]]))
     assert (u[0], v[0]) == (30.0, 20.0)
 

@@ -38,11 +38,11 @@ def test_what_summary_csv_writes_can_be_pasted_back():
 
 
 def test_number_lists():
-    assert parse_number_list("1024.5, 768", "--circle-centre-px", 2) == (1024.5, 768.0)
+    assert parse_number_list("1024.5, 768", "--circle-center-px", 2) == (1024.5, 768.0)
     with pytest.raises(InputError, match="--distortion .a. is not a plain number"):
         parse_number_list("a,b", "--distortion")
     with pytest.raises(InputError, match="must hold 2 numbers"):
-        parse_number_list("1,2,3", "--circle-centre-px", 2)
+        parse_number_list("1,2,3", "--circle-center-px", 2)
 
 
 def test_times_need_a_utc_offset():

@@ -1,34 +1,11 @@
-"""Refractive indices, halo and rainbow radii against published sources (REFERENCES 4)."""
+"""Halo and rainbow radii against published sources (REFERENCES 4); the indices: tests/core/test_refractive_index.py."""
 
 import numpy as np
 import pytest
 
-from polarsky.sky.features import (ICE_INDEX_WARREN2008, descartes_ray, feature_bands, halo_radius_deg,
-                                   prism_minimum_deviation_deg, rainbow_radius_deg,
-                                   refractive_index_ice_warren2008, refractive_index_water_iapws1997)
-
-
-@pytest.mark.parametrize("rho,t,lam,n", [
-    (997.047435, 298.15, 0.2265, 1.39277824),
-    (997.047435, 298.15, 0.5893, 1.33285819),
-    (30.4758534, 773.15, 0.5893, 1.00949307),
-])
-def test_iapws_r9_97_check_values(rho, t, lam, n):
-    # IAPWS R9-97 (1997), check values of the release (quoted by the iapws/chemicals packages)
-    assert refractive_index_water_iapws1997(lam, t, rho) == pytest.approx(n, abs=1e-8)
-
-
-def test_iapws_vs_handbook_nd_20c():
-    # ICUMSA 1974 table, 0 Brix: n_D(20 C) = 1.33299 relative to air; IAPWS is relative to
-    # vacuum, ratio ~ n_air = 1.00027 (REFERENCES 4.1)
-    n = refractive_index_water_iapws1997(0.58926, 293.15, 998.2067)
-    assert n / 1.00027 == pytest.approx(1.33299, abs=5e-5)
-
-
-@pytest.mark.parametrize("lam,n", sorted(ICE_INDEX_WARREN2008.items()))
-def test_ice_index_warren_brandt_2008_table(lam, n):
-    # Warren & Brandt (2008), J. Geophys. Res. 113, D14220, real index table
-    assert refractive_index_ice_warren2008(lam) == pytest.approx(n, abs=1e-12)
+from polarsky.core.refractive_index import refractive_index_ice_warren2008, refractive_index_water_iapws1997
+from polarsky.sky.features import (descartes_ray, feature_bands, halo_radius_deg, prism_minimum_deviation_deg,
+                                   rainbow_radius_deg)
 
 
 def test_halo_radii_tatum():

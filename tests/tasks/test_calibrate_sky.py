@@ -26,7 +26,7 @@ def test_calibration_round_trip_through_the_bracket_path(tmp_path):
     res = run_calibrate_sky(files, tmp_path / "cal", **geo)
     assert res["angle_offset_deg"][0] == pytest.approx(3.0, abs=0.1)
     assert 0 < res["angle_offset_sigma_deg"][0] < 0.1
-    assert res["calibration"] == str(tmp_path / "cal" / "calibration.nc")
+    assert res["calibration_file"] == str(tmp_path / "cal" / "calibration.nc")
     on_disk = json.loads((tmp_path / "cal" / "calibration.json").read_text())
     assert on_disk["angle_offset_deg"] == res["angle_offset_deg"]
     assert on_disk["outputs"] == ["calibration.json", "calibration.nc"]

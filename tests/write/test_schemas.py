@@ -1,4 +1,4 @@
-"""summary.json, advice.json and sky.json validate against their one documented schema on every path.
+"""summary.json, advice.json, sky.json, plan_sky.json, plan_glare.json and the ring calibration.json validate against their one documented schema on every path.
 
 The schemas are docs/schemas/*.schema.json (JSON Schema 2020-12, checked with the
 general-purpose ``jsonschema`` library); a bracket and a mosaic frame give summaries with the
@@ -115,3 +115,68 @@ def test_batch_reads_the_documented_keys(tmp_path, bracket):
     assert row["best_angle_deg"] == advice["best_angle_deg"]
     assert row["reduction_stops"] == advice["reduction_stops"]
     assert row["analyzer_angles_deg"] == "0,45,90,135"
+
+
+@pytest.fixture(scope="module")
+def ring_dir(tmp_path_factory):
+    from polarsky.tasks.calibrate_ring import run_calibrate_ring
+    from tests.tasks.test_calibrate_ring import reference_bracket
+
+    folder = tmp_path_factory.mktemp("ring")
+    frames = reference_bracket(folder / "in", offset_deg=7.0)
+    res = run_calibrate_ring(frames, folder / "cal", region="0,0,60,40")
+    return {"frames": frames, "cal": folder / "cal", "result": res}
+
+
+def test_calibrate_ring_json_validates(ring_dir):
+    res = ring_dir["result"]
+    _validate(json.loads(json.dumps(res)), "calibrate_ring")
+    assert json.loads((ring_dir["cal"] / "calibration.json").read_text()) == json.loads(json.dumps(res))
+
+
+def test_advice_with_a_surface_and_a_ring_validates(ring_dir, tmp_path):
+    from polarsky.tasks.advise import run_advise
+
+    a = run_advise(ring_dir["frames"], tmp_path / "a", region="0,0,60,40", calibration=str(ring_dir["cal"]),
+                   surface="water", pitch_deg=-30)
+    b = run_advise(ring_dir["frames"], region="0,0,60,40", index=1.5)
+    for r in (a, b):
+        _validate(json.loads(json.dumps(r)), "advice")
+    assert a["best_ring_reading_deg"] is not None and a["surface_estimate"]["pitch_deg"] == -30.0
+    assert b["best_ring_reading_deg"] is None and b["surface_estimate"]["pitch_deg"] is None
+    assert json.loads((tmp_path / "a" / "advice.json").read_text()) == json.loads(json.dumps(a))
+
+
+PLAN_SITE = {"when": "2026-06-21T19:10:00+02:00", "lat": 46.37, "lon": 9.84, "hfov_deg": 70, "yaw_deg": 72,
+             "pitch_deg": 28, "size_px": "64,48"}   # the demo's invented site
+
+
+@pytest.mark.parametrize("extra", [{}, {"region": "0,0,30,20", "extinction": 300, "radiance": "cie-clear"},
+                                   {"sweep_time": "03:00,21:00,180", "sweep_yaw": "0,300,60", "out": True},
+                                   {"ring": True, "sweep_yaw": "0,90,90"}])
+def test_plan_sky_json_validates(extra, tmp_path, ring_dir):
+    from polarsky.tasks.plan_sky import run_plan_sky
+
+    extra = dict(extra)
+    out = tmp_path / "p" if extra.pop("out", False) else None
+    if extra.pop("ring", False):
+        extra["calibration"] = str(ring_dir["cal"])
+    r = run_plan_sky(out, **PLAN_SITE, **extra)
+    _validate(json.loads(json.dumps(r)), "plan_sky")
+    if out is not None:
+        assert json.loads((out / "plan_sky.json").read_text()) == json.loads(json.dumps(r))
+
+
+@pytest.mark.parametrize("extra", [{"surface": "water"}, {"index": 1.5, "behind_fraction": 0.2, "sweep": "0,85,5"},
+                                   {"surface": "glass", "extinction": 30, "out": True}, {"surface": "ice", "ring": True}])
+def test_plan_glare_json_validates(extra, tmp_path, ring_dir):
+    from polarsky.tasks.plan_glare import run_plan_glare
+
+    extra = dict(extra)
+    out = tmp_path / "g" if extra.pop("out", False) else None
+    if extra.pop("ring", False):
+        extra["calibration"] = str(ring_dir["cal"])
+    r = run_plan_glare(out, incidence_deg=56.30993247402, **extra)
+    _validate(json.loads(json.dumps(r)), "plan_glare")
+    if out is not None:
+        assert json.loads((out / "plan_glare.json").read_text()) == json.loads(json.dumps(r))

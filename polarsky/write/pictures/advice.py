@@ -8,12 +8,13 @@ import numpy as np
 
 from ...core.stokes import intensity_at
 from ...palette import AXIS_LABEL_X, AXIS_LABEL_Y, COLOURS
-from .maps import checker, draw_axis, new_figure, save_figure
+from .figure import checker, draw_axis, new_figure, save_figure
 
-__all__ = ["advice_pictures"]
+__all__ = ["advice_pictures", "outline_region"]
 
 
-def _outline(ax, mask, step, color, label):
+def outline_region(ax, mask, step, color, label):
+    """Outline a region mask (decimated by ``step``) and label it at its upper left corner."""
     ax.contour(np.arange(mask.shape[1]) * step, np.arange(mask.shape[0]) * step, mask.astype(float),
                levels=[0.5], colors=[color], linewidths=1.8)
     ys, xs = np.nonzero(mask)
@@ -51,9 +52,9 @@ def advice_pictures(prev: dict, masks: dict, result: dict, out_dir, *, step: int
     fig = new_figure(8.5, max(3.5, 8.0 * h / max(w, 1) + 1.0))
     ax = fig.add_subplot()
     ax.imshow(_rgb(frame0, valid | np.isfinite(frame0).all(axis=0), max(top, 1e-6)), extent=ext, interpolation="nearest")
-    _outline(ax, sub["region"], step, COLOURS["region"], "region (darken)")
+    outline_region(ax, sub["region"], step, COLOURS["region"], "region (darken)")
     if "protect" in sub:
-        _outline(ax, sub["protect"], step, COLOURS["protect"], "protected region (keep)")
+        outline_region(ax, sub["protect"], step, COLOURS["protect"], "protected region (keep)")
     draw_axis(ax, best, (h, w), step=step, label=f"filter axis {best:.1f} deg")
     ax.set_title("Recommended filter transmission axis (first frame of the bracket)")
     ax.set_xlabel(AXIS_LABEL_X)
@@ -79,9 +80,9 @@ def advice_pictures(prev: dict, masks: dict, result: dict, out_dir, *, step: int
         a.set_title(title, fontsize=10)
         a.set_xticks([])
         a.set_yticks([])
-        _outline(a, sub["region"], step, COLOURS["region"], "region")
+        outline_region(a, sub["region"], step, COLOURS["region"], "region")
         if "protect" in sub:
-            _outline(a, sub["protect"], step, COLOURS["protect"], "protected region")
+            outline_region(a, sub["protect"], step, COLOURS["protect"], "protected region")
     fig.suptitle(f"Same brightness scale in both panels; region {result['reduction_stops']:.2f} stops darker at the best angle",
                  fontsize=10)
     paths.append(save_figure(fig, out_dir / "advice_preview.png"))

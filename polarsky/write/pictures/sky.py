@@ -14,9 +14,9 @@ import numpy as np
 
 from ...palette import AXIS_LABEL_X, AXIS_LABEL_Y, COLOURS
 from ...sky.fit import MASK_REASONS
-from .maps import checker, new_figure, save_figure
+from .figure import checker, new_figure, save_figure
 
-__all__ = ["save_sky_pictures"]
+__all__ = ["save_sky_pictures", "draw_sky_marks", "shown_rgb", "sky_frame"]
 
 #: mask reason -> colour of the sky-mask picture (sun, halo and rainbow bands in their palette colours)
 _MASK_COLOURS = {0: "#3b7dd8", 1: "#000000", 2: "#6b4f2a", 3: "#8c8c8c", 4: COLOURS["sun"],
@@ -27,8 +27,9 @@ def _stride(h, w, max_side=1000):
     return max(1, int(np.ceil(max(h, w) / max_side)))
 
 
-def _overlay(ax, geom, scat, bands, stride, extent_hw):
-    """Sun, antisun, 90-degree band and feature rings (scat = scattering angle, strided)."""
+def draw_sky_marks(ax, geom, scat, bands, stride, extent_hw):
+    """Sun, antisun (an arrow at the frame edge when outside it), the band 90 degrees from the sun
+    and feature rings (``scat`` = scattering angle, strided by ``stride``)."""
     from matplotlib import patheffects as pe
 
     halo = [pe.withStroke(linewidth=3.5, foreground="black")]
@@ -83,7 +84,8 @@ def _overlay(ax, geom, scat, bands, stride, extent_hw):
                 bbox=dict(boxstyle="round,pad=0.2", fc="black", ec="none", alpha=0.5))
 
 
-def _rgb(arr, show, cmap_name, vmin, vmax):
+def shown_rgb(arr, show, cmap_name, vmin, vmax):
+    """RGB of ``arr`` in a colour map; pixels not ``show``n (or not finite) grey-checkered."""
     import matplotlib as mpl
 
     cm = mpl.colormaps[cmap_name]
@@ -94,7 +96,8 @@ def _rgb(arr, show, cmap_name, vmin, vmax):
     return rgb
 
 
-def _frame(h, w, title):
+def sky_frame(h, w, title):
+    """A figure and axes for an ``h`` x ``w`` frame, axes labelled in pixels, the checkerboard explained."""
     fig = new_figure(7.6, 7.2 * h / w + 1.0)
     ax = fig.add_subplot()
     ax.set_xlim(-0.5, w - 0.5)
@@ -139,22 +142,22 @@ def save_sky_pictures(out_dir, *, geom, bands, observed_dolp, observed_aolp, mod
     ]
     names = []
     for fname, arr, show, cmap_name, (vmin, vmax), key, title in specs:
-        fig, ax = _frame(h, w, title + ("\n" + summary_line if summary_line else ""))
-        ax.imshow(_rgb(arr, show, cmap_name, vmin, vmax), extent=extent, interpolation="nearest")
+        fig, ax = sky_frame(h, w, title + ("\n" + summary_line if summary_line else ""))
+        ax.imshow(shown_rgb(arr, show, cmap_name, vmin, vmax), extent=extent, interpolation="nearest")
         sm = mpl.cm.ScalarMappable(norm=mpl.colors.Normalize(vmin, vmax), cmap=mpl.colormaps[cmap_name])
         fig.colorbar(sm, ax=ax, fraction=0.046, pad=0.03, label=key)
-        _overlay(ax, geom, scat, bands, st, (h, w))
+        draw_sky_marks(ax, geom, scat, bands, st, (h, w))
         save_figure(fig, out_dir / fname)
         names.append(fname)
     # the mask
     codes = sorted(MASK_REASONS)
     cmap = mpl.colors.ListedColormap([_MASK_COLOURS[c] for c in codes])
     norm = mpl.colors.BoundaryNorm(np.arange(-0.5, len(codes) + 0.5), cmap.N)
-    fig, ax = _frame(h, w, "sky mask: pixels used for the fit and why others were left out")
+    fig, ax = sky_frame(h, w, "sky mask: pixels used for the fit and why others were left out")
     im = ax.imshow(reason[sl], cmap=cmap, norm=norm, extent=extent, interpolation="nearest")
     cb = fig.colorbar(im, ax=ax, fraction=0.046, pad=0.03, ticks=codes)
     cb.ax.set_yticklabels([MASK_REASONS[c] for c in codes], fontsize=7)
-    _overlay(ax, geom, scat, bands, st, (h, w))
+    draw_sky_marks(ax, geom, scat, bands, st, (h, w))
     ax.set_xlabel(AXIS_LABEL_X, fontsize=8)
     save_figure(fig, out_dir / "sky_mask.png")
     names.append("sky_mask.png")
