@@ -83,8 +83,18 @@ def _names_as_given() -> list:
     return changed
 
 
+class _Stopped(BaseException):
+    """SIGTERM or SIGINT arrived: unwind (staging folders are removed, outputs stay whole).
+
+    Not a KeyboardInterrupt, which click turns into an "Aborted!" with an empty line first."""
+
+    def __init__(self, signum: int):
+        super().__init__(signum)
+        self.signum = signum
+
+
 def _terminate(signum, frame):
-    raise KeyboardInterrupt
+    raise _Stopped(signum)
 
 
 def main(args=None) -> int:
@@ -92,12 +102,12 @@ def main(args=None) -> int:
     old = warnings.showwarning
     warnings.showwarning = _show_warning
     streams = _names_as_given()
-    old_term = None
-    if sys.platform != "win32":
-        try:  # SIGTERM cleans up like Ctrl-C: staging folders are removed, outputs stay whole
-            old_term = signal.signal(signal.SIGTERM, _terminate)
+    old_handlers = {}
+    for sig in (signal.SIGTERM, signal.SIGINT) if sys.platform != "win32" else ():
+        try:  # SIGTERM and Ctrl-C clean up: staging folders are removed, outputs stay whole
+            old_handlers[sig] = signal.signal(sig, _terminate)
         except ValueError:  # not the main thread (tests calling main in a worker)
-            old_term = None
+            break
     try:
         rv = cli.main(args=args, prog_name="polarsky", standalone_mode=False)
         return int(rv or 0)
@@ -117,9 +127,9 @@ def main(args=None) -> int:
     except click.Abort:
         print("error: aborted", file=sys.stderr)
         return 2
-    except KeyboardInterrupt:
+    except (_Stopped, KeyboardInterrupt) as exc:
         print("error: interrupted (no output folder was left half-written)", file=sys.stderr)
-        return 130
+        return 128 + getattr(exc, "signum", signal.SIGINT)
     except MemoryError:
         print("error: out of memory; process smaller frames or raise the machine's memory", file=sys.stderr)
         return 2
@@ -136,8 +146,8 @@ def main(args=None) -> int:
         warnings.showwarning = old
         for stream, errors in streams:
             stream.reconfigure(errors=errors)
-        if old_term is not None:
-            signal.signal(signal.SIGTERM, old_term)
+        for sig, handler in old_handlers.items():
+            signal.signal(sig, handler)
 
 
 def entry() -> None:  # pragma: no cover - thin wrapper

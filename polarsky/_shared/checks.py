@@ -13,7 +13,7 @@ import re
 from ..errors import InputError
 
 __all__ = ["parse_number", "check_finite", "check_positive", "check_range", "check_at_least", "number_text",
-           "path_problem", "check_utf8_path", "check_distinct_files"]
+           "path_problem", "check_distinct_files"]
 
 _NUMBER = re.compile(r"[+-]?(\d+(\.\d*)?|\.\d+)")
 _NOT_FINITE = re.compile(r"[+-]?(nan|inf|infinity)", re.IGNORECASE)
@@ -162,24 +162,6 @@ def path_problem(path) -> str | None:
     if os.path.islink(path):
         return f"is a symbolic link to {os.readlink(path)!r}, which does not exist"
     return "does not exist"
-
-
-def check_utf8_path(path, what: str) -> None:
-    """Refuse a path whose name is not UTF-8 where the NetCDF library must open it (it
-    cannot encode such a name); other files with such names are read and written as usual.
-
-    Raises
-    ------
-    InputError
-        Naming the path and the fix.
-    """
-    import os
-
-    try:
-        os.fsdecode(os.path.abspath(path)).encode("utf-8")
-    except UnicodeEncodeError:
-        raise InputError(f"{what} {os.fsdecode(path)} has a name that is not UTF-8, which the NetCDF library cannot "
-                         "open; rename the folder or choose another one") from None
 
 
 def check_distinct_files(files, angles_deg, *, what: str = "frame") -> None:

@@ -24,7 +24,6 @@ import time
 import uuid
 from pathlib import Path
 
-from .._shared.checks import check_utf8_path
 from ..errors import InputError, one_line
 from . import state
 from .discover import Bracket, discover_brackets
@@ -163,7 +162,6 @@ def run_batch(root, out_dir, *, settings, sky: bool = False, client=None, progre
     if out_dir is None or str(out_dir).strip() == "":
         raise InputError("--out is empty; give the folder for the brackets' outputs, summary.csv and report.html")
     out_dir = Path(out_dir).resolve()
-    check_utf8_path(out_dir, "--out")
     check_batch_settings(settings, sky=sky)
     brackets = list_brackets(root, out_dir, settings=settings)  # checks ROOT before DIR is made
     if out_dir.exists() and not out_dir.is_dir():

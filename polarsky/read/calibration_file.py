@@ -6,7 +6,7 @@ from pathlib import Path
 
 import numpy as np
 
-from .._shared.checks import check_utf8_path, path_problem
+from .._shared.checks import path_problem
 from ..errors import InputError
 from .stokes_file import decode_attrs
 
@@ -23,7 +23,6 @@ def find_calibration(path) -> Path:
     if not p.is_file():
         raise InputError(f"calibration {path} {path_problem(p) or 'is not a file'}; give the {FILE_NAME} (or the "
                          "folder) written by 'polarsky calibrate'")
-    check_utf8_path(p, "calibration")
     return p
 
 

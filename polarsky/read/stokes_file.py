@@ -11,7 +11,7 @@ from pathlib import Path
 
 import numpy as np
 
-from .._shared.checks import check_utf8_path, path_problem
+from .._shared.checks import path_problem
 from ..errors import InputError
 
 __all__ = ["open_stokes", "read_stokes", "products_from_dataset", "decode_attrs"]
@@ -58,7 +58,6 @@ def _check(path):
     if not p.is_file():
         raise InputError(f"Stokes result {p} {path_problem(p) or 'is not a file'}; give a stokes.nc written by "
                          "'polarsky stokes'")
-    check_utf8_path(p, "Stokes result")
 
 
 def read_stokes(path) -> dict:

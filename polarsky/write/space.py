@@ -9,6 +9,7 @@ from __future__ import annotations
 
 import errno
 import os
+import re
 import shutil
 from pathlib import Path
 
@@ -53,9 +54,11 @@ def _inside(path, folder: Path | None) -> str | None:
     if path is None or folder is None:
         return None
     try:
-        return Path(os.fsdecode(path)).resolve().relative_to(folder.resolve()).as_posix()
+        rel = Path(os.fsdecode(path)).resolve().relative_to(folder.resolve())
     except (ValueError, OSError, TypeError):
         return None
+    m = re.fullmatch(r"\.(.+)\.partial-\d+", rel.name)  # a file written under a temporary name
+    return (rel.with_name(m.group(1)) if m else rel).as_posix()
 
 
 def is_write_error(exc: OSError, staging: Path) -> bool:

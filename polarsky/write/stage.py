@@ -25,7 +25,6 @@ import time
 from pathlib import Path
 
 from .._version import __version__
-from .._shared.checks import check_utf8_path
 from ..errors import InputError
 from .space import folder_bytes, free_bytes, human_size, is_write_error, write_error
 from .swap import STAGING, clean_leftovers, hidden_name, swap_in
@@ -43,14 +42,12 @@ def check_out_dir(out_dir, *, inputs=(), option: str = "--out") -> Path:
     Raises
     ------
     InputError
-        Empty path, a path that is not UTF-8 (the NetCDF library cannot write there), an
-        existing file, a folder holding files polarsky did not write, or a folder that holds
-        one of the run's inputs.
+        Empty path, an existing file, a folder holding files polarsky did not write, or a
+        folder that holds one of the run's inputs.
     """
     if out_dir is None or str(out_dir).strip() == "":
         raise InputError(f"{option} is empty; give the folder for the outputs, e.g. {option} out/")
     out = Path(out_dir)
-    check_utf8_path(out, option)
     if out.is_symlink() and out.is_dir():
         out = out.resolve()  # publish into the folder the link points to; the link stays
     if out.exists() and not out.is_dir():
@@ -154,7 +151,8 @@ class _Destination:
     expected_bytes = None
 
     def reserve(self, nbytes: int) -> None:
-        """Say how many bytes this run will write; refuse now if the device has less free.
+        """Say about how many bytes this run will write; refuse now if the device has clearly
+        too little free (less than half of it: compression makes the estimate rough).
 
         Raises
         ------
@@ -163,7 +161,7 @@ class _Destination:
         """
         self.expected_bytes = int(nbytes)
         free = free_bytes(self.dir)
-        if free is not None and free < nbytes:
+        if free is not None and free < nbytes // 2:
             raise InputError(f"not enough space on the device of {self.out_dir}: this run writes about "
                              f"{human_size(nbytes)} and {human_size(free)} are free; free some space or choose "
                              "another --out")

@@ -54,16 +54,29 @@ def _exchange(a: Path, b: Path) -> bool:
 
 @contextlib.contextmanager
 def held_signals():
-    """Hold SIGTERM and SIGINT back for the duration (delivered afterwards); main thread only."""
-    sigs = {signal.SIGTERM, signal.SIGINT}
-    if not hasattr(signal, "pthread_sigmask") or threading.current_thread() is not threading.main_thread():
+    """Hold SIGTERM and SIGINT back for the duration; they take effect right after it.
+
+    Their handlers are swapped for one that only notes them (a process-directed signal may
+    reach any thread, so blocking it in this thread is not enough); afterwards the earlier
+    handlers are put back and each noted signal is raised again.  Main thread only.
+    """
+    if threading.current_thread() is not threading.main_thread():
         yield
         return
-    old = signal.pthread_sigmask(signal.SIG_BLOCK, sigs)
+    noted: list = []
+    old = {}
+    for sig in (signal.SIGTERM, signal.SIGINT):
+        try:
+            old[sig] = signal.signal(sig, lambda signum, frame: noted.append(signum))
+        except (ValueError, OSError):  # pragma: no cover - a platform without the signal
+            pass
     try:
         yield
     finally:
-        signal.pthread_sigmask(signal.SIG_SETMASK, old)
+        for sig, handler in old.items():
+            signal.signal(sig, handler)
+        for sig in dict.fromkeys(noted):
+            signal.raise_signal(sig)
 
 
 def swap_in(staged: Path, out: Path) -> None:
