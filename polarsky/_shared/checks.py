@@ -181,8 +181,8 @@ def check_distinct_files(files, angles_deg, *, what: str = "frame") -> None:
         try:
             st = os.stat(f)
             key = (st.st_dev, st.st_ino)
-        except OSError:
-            key = Path(f).resolve()
+        except OSError:  # missing or a looping link: the reader says so
+            key = os.path.realpath(f)
         if key in seen:
             g, b = seen[key]
             same = "" if Path(g) == Path(f) else f" (as {Path(g).name} and {Path(f).name})"

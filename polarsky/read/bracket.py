@@ -10,6 +10,7 @@ any frame, or at the black level, are not valid.
 
 from __future__ import annotations
 
+import os
 import warnings
 from dataclasses import dataclass, field
 from pathlib import Path
@@ -153,13 +154,13 @@ def bracket_files(frames=(), read=None):
         man = read_manifest(read.manifest)
         m_files, m_angles, m_exp = list(man.files), list(man.angles_deg), list(man.exposures_s)
         if files:
-            lookup = {p.resolve(): i for i, p in enumerate(m_files)}
+            lookup = {os.path.realpath(p): i for i, p in enumerate(m_files)}
             order = []
             for f in files:
-                if f.resolve() not in lookup:
+                if os.path.realpath(f) not in lookup:
                     raise InputError(f"frame {f} is not listed in manifest {read.manifest}; add it or leave the frames "
                                      "out to use the manifest's list")
-                order.append(lookup[f.resolve()])
+                order.append(lookup[os.path.realpath(f)])
             m_files = [m_files[i] for i in order]
             m_angles = [m_angles[i] for i in order]
             m_exp = [m_exp[i] for i in order]

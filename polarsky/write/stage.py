@@ -25,6 +25,7 @@ import time
 from pathlib import Path
 
 from .._version import __version__
+from .._shared.checks import path_problem
 from ..errors import InputError
 from .space import folder_bytes, free_bytes, human_size, is_write_error, write_error
 from .swap import STAGING, clean_leftovers, hidden_name, swap_in
@@ -48,14 +49,17 @@ def check_out_dir(out_dir, *, inputs=(), option: str = "--out") -> Path:
     if out_dir is None or str(out_dir).strip() == "":
         raise InputError(f"{option} is empty; give the folder for the outputs, e.g. {option} out/")
     out = Path(out_dir)
+    problem = path_problem(out)
+    if problem not in (None, "does not exist"):
+        raise InputError(f"{option} {out} {problem}; give a folder path")
     if out.is_symlink() and out.is_dir():
-        out = out.resolve()  # publish into the folder the link points to; the link stays
+        out = Path(os.path.realpath(out))  # publish into the folder the link points to; the link stays
     if out.exists() and not out.is_dir():
         raise InputError(f"{option} {out} exists and is not a folder; give a folder path")
-    target = out.resolve()
+    target = Path(os.path.realpath(out))
     for f in inputs:
         try:
-            Path(f).resolve().relative_to(target)
+            Path(os.path.realpath(f)).relative_to(target)
         except ValueError:
             continue
         raise InputError(f"{option} {out} holds the input {f}; outputs replace the whole folder, so choose another "
@@ -78,7 +82,7 @@ class FolderLock:
     def __init__(self, folder: Path, *, what: str = "--out"):
         self.folder = Path(folder)
         self.what = what
-        key = hashlib.sha256(str(self.folder.resolve()).encode("utf-8", "surrogateescape")).hexdigest()[:32]
+        key = hashlib.sha256(os.path.realpath(self.folder).encode("utf-8", "surrogateescape")).hexdigest()[:32]
         locks = Path(tempfile.gettempdir()) / "polarsky-locks"
         if not locks.is_dir():
             locks.mkdir(exist_ok=True)
