@@ -13,7 +13,7 @@ import re
 from ..errors import InputError
 
 __all__ = ["parse_number", "check_finite", "check_positive", "check_range", "check_at_least", "number_text",
-           "path_problem", "check_distinct_files"]
+           "path_problem", "check_distinct_files", "dolp_above_one_cause"]
 
 _NUMBER = re.compile(r"[+-]?(\d+(\.\d*)?|\.\d+)")
 _NOT_FINITE = re.compile(r"[+-]?(nan|inf|infinity)", re.IGNORECASE)
@@ -189,4 +189,20 @@ def check_distinct_files(files, angles_deg, *, what: str = "frame") -> None:
             raise InputError(f"{what} {f} is listed twice{same}, at {float(b):g} and {float(a):g} deg; each angle needs "
                              "a picture of its own: check the frame list, --angles or the manifest")
         seen[key] = (f, a)
+
+
+def dolp_above_one_cause(extinction=None, calibration=None) -> str:
+    """What most likely made a DoLP above 1, and the fix, for a message.
+
+    >>> dolp_above_one_cause(1.0001)[:60]
+    "--extinction 1.0001 (diattenuation 5e-05) is lower than the f"
+    """
+    if extinction is not None:
+        d = (float(extinction) - 1.0) / (float(extinction) + 1.0)
+        return (f"--extinction {float(extinction):g} (diattenuation {d:.3g}) is lower than the filter's: measure it "
+                "('polarsky calibrate') or leave it out")
+    if calibration:
+        return "the calibration does not fit this camera and filter: check --calibration"
+    return ("check the analyzer angles (--angles, the manifest or the file names) and that every frame shows the same "
+            "scene at the same exposure")
 

@@ -114,6 +114,9 @@ class RegionSink:
             self.sums[k] += sums
             self.counts[k] += n
 
+    #: the products it reads
+    needs = frozenset({"S0", "S1", "S2", "valid"})
+
     def write(self, r0, r1, products, frame0):
         self.add(block_region_sums(r0, r1, products, self.masks, self.extents))
 
@@ -127,6 +130,8 @@ class RegionNoiseSink:
     ``sigma_S1 = 2 L sigma_aolp`` (rad), the high-SNR relation ``sigma_psi = sigma_S1 / (2 L)``
     (Serkowski 1962, from memory).
     """
+
+    needs = frozenset({"S0", "S1", "S2", "valid", "sigma_aolp"})
 
     def __init__(self, mask):
         self.mask = np.asarray(mask, bool)

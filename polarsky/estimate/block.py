@@ -24,7 +24,7 @@ from ..core import stokes as sk
 from ..core.noise import NoiseModel, model_variance
 from ..core.uncertainty import dolp_debiased_plaszczynski2014, sigma_dolp_aolp
 
-__all__ = ["BlockInput", "estimate", "SMOOTH_RADIUS", "PRODUCTS"]
+__all__ = ["BlockInput", "estimate", "needs_context", "SMOOTH_RADIUS", "PRODUCTS", "BASE_PRODUCTS"]
 
 #: Half-size of the window the residual-based variance is averaged over (5x5 pixels).
 SMOOTH_RADIUS = 2
@@ -135,8 +135,18 @@ def _uncertainty_numpy(s, dolp, var, cov):
     return sig_p, sig_a, unb
 
 
-def estimate(inp: BlockInput, noise: NoiseModel, *, compiled: bool, smooth: bool = True) -> dict:
-    """Every Stokes product of a block.
+#: The products every estimate returns (the others are computed when a sink needs them).
+BASE_PRODUCTS = frozenset({"S0", "S1", "S2", "valid"})
+_UNCERTAINTY = frozenset({"sigma_dolp", "sigma_aolp", "dolp_unbiased"})
+
+
+def needs_context(needs) -> bool:
+    """Whether products ``needs`` include the uncertainties (the only ones smoothed over 5x5)."""
+    return needs is None or bool(_UNCERTAINTY & set(needs))
+
+
+def estimate(inp: BlockInput, noise: NoiseModel, *, compiled: bool, smooth: bool = True, needs=None) -> dict:
+    """The Stokes products of a block.
 
     Parameters
     ----------
@@ -146,21 +156,42 @@ def estimate(inp: BlockInput, noise: NoiseModel, *, compiled: bool, smooth: bool
         Use the compiled kernels (large frames) instead of the numpy reference.
     smooth : bool
         Smooth the residual-based variance over 5x5 pixels (the caller supplies context rows).
+    needs : iterable of str, optional
+        The products wanted (default all of :data:`PRODUCTS`); S0, S1, S2 and ``valid`` are
+        always returned.  A product's values do not depend on which others are wanted.
 
     Returns
     -------
     dict
-        :data:`PRODUCTS` as float32 (C, h, w) with NaN where not valid (``residual`` only
+        The products wanted, float32 (C, h, w) with NaN where not valid (``residual`` only
         with more than 3 analyzers), and bool ``valid``.
     """
     c, h, w = inp.shape
     n = inp.n_analyzers
+    want = set(PRODUCTS) if needs is None else set(needs) | BASE_PRODUCTS
+    if n <= 3:
+        want.discard("residual")
+    uncertain = bool(_UNCERTAINTY & want)
+    angles = uncertain or bool({"dolp", "aolp"} & want)
     mode = 1 if noise.resolved_source(n) == "residual" else 0
     inv_fw, q_var = noise.parameters(inp.full_scale)
     shape = (c, h, w)
-    out = {k: np.empty(shape, np.float32) for k in PRODUCTS if k != "valid" and (k != "residual" or n > 3)}
+    out = {k: np.empty(shape, np.float32) for k in PRODUCTS if k in want and k != "valid"}
     for ci in range(c):
+        if not angles and "residual" not in want and not compiled:
+            s = _solve_stokes_numpy(inp, ci)
+            out["S0"][ci], out["S1"][ci], out["S2"][ci] = s
+            continue
         s, var, dolp, aolp, res = _solve_and_finish(inp, ci, n, mode, inv_fw, q_var, compiled)
+        out["S0"][ci], out["S1"][ci], out["S2"][ci] = s
+        if "dolp" in want:
+            out["dolp"][ci] = dolp
+        if "aolp" in want:
+            out["aolp"][ci] = aolp
+        if "residual" in want:
+            out["residual"][ci] = res
+        if not uncertain:
+            continue
         if mode == 1 and smooth:
             var = smooth_variance(var)
         wm = inp.w[ci]
@@ -170,17 +201,31 @@ def estimate(inp: BlockInput, noise: NoiseModel, *, compiled: bool, smooth: bool
 
             c6 = np.array([cov[0, 0], cov[1, 1], cov[2, 2], cov[0, 1], cov[0, 2], cov[1, 2]], np.float32)
             npx = h * w
+            tmp = {k: out[k][ci] if k in out else np.empty((h, w), np.float32) for k in _UNCERTAINTY}
             uncertainty_pass(s.reshape(3, npx), dolp.reshape(npx), np.ascontiguousarray(var).reshape(npx), c6,
-                             out["sigma_dolp"][ci].reshape(npx), out["sigma_aolp"][ci].reshape(npx),
-                             out["dolp_unbiased"][ci].reshape(npx))
+                             tmp["sigma_dolp"].reshape(npx), tmp["sigma_aolp"].reshape(npx),
+                             tmp["dolp_unbiased"].reshape(npx))
         else:
-            out["sigma_dolp"][ci], out["sigma_aolp"][ci], out["dolp_unbiased"][ci] = _uncertainty_numpy(s, dolp, var, cov)
-        out["S0"][ci], out["S1"][ci], out["S2"][ci] = s
-        out["dolp"][ci], out["aolp"][ci] = dolp, aolp
-        if n > 3:
-            out["residual"][ci] = res
+            sig_p, sig_a, unb = _uncertainty_numpy(s, dolp, var, cov)
+            for k, v in (("sigma_dolp", sig_p), ("sigma_aolp", sig_a), ("dolp_unbiased", unb)):
+                if k in out:
+                    out[k][ci] = v
     out["valid"] = ~inp.invalid & np.isfinite(out["S0"])
     return out
+
+
+def _solve_stokes_numpy(inp: BlockInput, ci: int) -> np.ndarray:
+    """S (3, h, w) of one channel alone (numpy), NaN where not valid: what
+    :func:`_solve_and_finish` gives for S without the other products."""
+    invalid = inp.invalid[ci]
+    if inp.s is not None:
+        s = inp.s[ci].copy()
+    elif inp.solve is not None:
+        s = sk.fit_stokes_per_pixel(inp.intensities[:, ci], inp.solve[ci])
+    else:
+        s = sk.fit_stokes(inp.intensities[:, ci], inp.w[ci], weights=inp.weights)
+    s[:, invalid | ~(s[0] > 0)] = np.nan
+    return s
 
 
 def _solve_and_finish(inp: BlockInput, ci: int, n: int, mode: int, inv_fw: float, q_var: float, compiled: bool):

@@ -15,7 +15,7 @@ import time
 import numpy as np
 
 from ..core.noise import NoiseModel
-from .block import SMOOTH_RADIUS, estimate
+from .block import SMOOTH_RADIUS, estimate, needs_context
 
 __all__ = ["run_blocks", "block_rows", "use_compiled", "mask_impossible", "BLOCK_VALUES", "COMPILED_MIN_VALUES",
            "IMPOSSIBLE_SIGMAS"]
@@ -41,6 +41,9 @@ IMPOSSIBLE_SIGMAS = 3.0
 def mask_impossible(products: dict):
     """Mark valid pixels whose DoLP exceeds 1 beyond their uncertainty as not valid (in place).
 
+    Where the sinks did not ask for DoLP and its uncertainty (a region's Stokes sums), only the
+    valid pixels are counted; the advice checks the region's DoLP instead.
+
     Returns
     -------
     valid : ndarray (C,), int
@@ -51,10 +54,12 @@ def mask_impossible(products: dict):
         The largest DoLP among them (0 when none).
     """
     valid = products["valid"]
-    dolp = products["dolp"]
     c = valid.shape[0]
     impossible = np.zeros(c, np.int64)
     largest = 0.0
+    if "dolp" not in products or "sigma_dolp" not in products:  # sinks that read Stokes sums only
+        return valid.reshape(c, -1).sum(axis=1), impossible, largest
+    dolp = products["dolp"]
     over = dolp > 1.0  # NaN compares False: invalid pixels are never counted
     if over.any():
         bad = over & valid & ~(dolp <= 1.0 + np.float32(IMPOSSIBLE_SIGMAS) * products["sigma_dolp"])
@@ -74,6 +79,17 @@ def block_rows(shape, n_channels: int) -> int:
     return int(max(8, min(h, BLOCK_VALUES // max(1, w * n_channels))))
 
 
+def _needs(sinks):
+    """The products the sinks read (None: all of them)."""
+    out = set()
+    for sink in sinks:
+        n = getattr(sink, "needs", None)
+        if n is None:
+            return None
+        out |= set(n)
+    return out
+
+
 def run_blocks(source, noise: NoiseModel, sinks, *, rows: int | None = None, compiled: bool | None = None,
                progress: bool = False) -> dict:
     """Estimate every block of ``source`` and feed it to ``sinks``.
@@ -84,7 +100,8 @@ def run_blocks(source, noise: NoiseModel, sinks, *, rows: int | None = None, com
     noise : NoiseModel
     sinks : sequence
         Objects with ``write(r0, r1, products, frame0)`` (``frame0``: first analyzer's
-        intensities of the block, or None).
+        intensities of the block, or None) and optionally ``needs``, the products they read
+        (default all): only the products some sink needs are computed.
     rows : int, optional
         Rows per block (default :func:`block_rows`).
     compiled : bool, optional
@@ -104,7 +121,8 @@ def run_blocks(source, noise: NoiseModel, sinks, *, rows: int | None = None, com
     rows = max(1, int(rows or block_rows(source.shape, nc)))
     compiled = source.compiled if compiled is None else bool(compiled)
     noise_source = noise.resolved_source(source.n_analyzers)
-    context = SMOOTH_RADIUS if noise_source == "residual" else 0
+    needs = _needs(sinks)
+    context = SMOOTH_RADIUS if noise_source == "residual" and needs_context(needs) else 0
     t_est = t_sink = 0.0
     valid_px = np.zeros(nc, np.int64)
     impossible_px = np.zeros(nc, np.int64)
@@ -120,7 +138,7 @@ def run_blocks(source, noise: NoiseModel, sinks, *, rows: int | None = None, com
             t1 = time.perf_counter()
             e0, e1 = max(0, r0 - context), min(h, r1 + context)
             inp, frame0 = source.block(e0, e1, own=(r0, r1))
-            products = estimate(inp, noise, compiled=compiled)
+            products = estimate(inp, noise, compiled=compiled, needs=needs)
             a, b = r0 - e0, r1 - e0
             if (a, b) != (0, e1 - e0):
                 products = {k: v[:, a:b] for k, v in products.items()}

@@ -10,6 +10,7 @@ from __future__ import annotations
 import numpy as np
 
 from ..core import stokes as sk
+from .._shared.stats import percentile
 
 __all__ = ["MemorySink", "PreviewSink", "StatsSink", "preview_step"]
 
@@ -19,6 +20,7 @@ class MemorySink:
 
     def __init__(self, shape, n_channels, names):
         h, w = shape
+        self.needs = frozenset(names)
         self.arrays = {n: np.empty((n_channels, h, w), bool if n == "valid" else np.float32) for n in names}
 
     def write(self, r0, r1, products, frame0):
@@ -36,8 +38,10 @@ class PreviewSink:
 
     NAMES = ("S0", "S1", "S2", "dolp", "dolp_unbiased", "aolp", "valid", "residual", "sigma_dolp", "sigma_aolp")
 
-    def __init__(self, shape, max_side: int = 1024):
+    def __init__(self, shape, max_side: int = 1024, names=None):
         self.step = preview_step(shape, max_side)
+        #: the products kept (default :data:`NAMES`)
+        self.needs = frozenset(self.NAMES if names is None else names)
         self._parts: dict = {}
         self.arrays: dict = {}
 
@@ -45,7 +49,7 @@ class PreviewSink:
         s = self.step
         sel = slice((-r0) % s, r1 - r0, s)
         for name in self.NAMES:
-            if name in products:
+            if name in products and name in self.needs:
                 self._parts.setdefault(name, []).append(products[name][:, sel, ::s].copy())
         f0 = products["S0"] * np.float32(0.5) if frame0 is None else frame0
         self._parts.setdefault("frame0", []).append(f0[:, sel, ::s].copy())
@@ -90,12 +94,13 @@ class StatsSink:
             for j, name in enumerate(("S0", "S1", "S2")):
                 self.sum_s[ci, j] += float(np.sum(products[name][ci][m], dtype=np.float64))
         if "residual" in products:
-            idx = np.arange(r0 * self.width, r1 * self.width)
-            take = (idx % self.stride) == 0
+            c = v.shape[0]
+            take = slice((-r0 * self.width) % self.stride, None, self.stride)  # pixel index % stride == 0
+            res = products["residual"].reshape(c, -1)[:, take]
+            s0 = products["S0"].reshape(c, -1)[:, take]
+            ok = v.reshape(c, -1)[:, take]
             with np.errstate(invalid="ignore", divide="ignore"):
-                rel = (products["residual"] / products["S0"]).reshape(v.shape[0], -1)[:, take]
-            ok = v.reshape(v.shape[0], -1)[:, take]
-            self._res.append(rel[ok])
+                self._res.append(res[ok] / s0[ok])
 
     def summary(self, channels) -> dict:
         n = np.maximum(self.valid, 1)
@@ -122,5 +127,5 @@ class StatsSink:
         rel = np.concatenate(self._res) if self._res else np.zeros(0)
         if rel.size:
             out["median_relative_residual"] = _r(float(np.median(rel)))
-            out["p99_relative_residual"] = _r(float(np.percentile(rel, 99)))
+            out["p99_relative_residual"] = _r(percentile(rel, 99))
         return out

@@ -39,10 +39,31 @@ def _field(name: str, entry: dict):
     return name, object, field(default=default, metadata=spec)
 
 
+def _frozen_setattr(self, name, value):
+    if name in self.__dict__ or name not in self.__dataclass_fields__:
+        raise dataclasses.FrozenInstanceError(f"cannot assign to field {name!r}")
+    object.__setattr__(self, name, value)
+
+
+def _frozen_delattr(self, name):
+    raise dataclasses.FrozenInstanceError(f"cannot delete field {name!r}")
+
+
+def _hash(self):
+    return hash(tuple(getattr(self, f) for f in self.__dataclass_fields__))
+
+
 def _group(group: str, class_name: str):
+    """The settings class of one group: a dataclass whose fields cannot be reassigned.
+
+    Frozen by hand (a field is set once, by ``__init__``) rather than by ``frozen=True``,
+    whose generated methods make creating the classes take several times longer at every
+    start of the command line.
+    """
     entries = TABLE[group]
     cls = dataclasses.make_dataclass(class_name, [_field(k, v) for k, v in entries.items() if isinstance(v, dict)],
-                                     frozen=True, kw_only=True)
+                                     kw_only=True)
+    cls.__setattr__, cls.__delattr__, cls.__hash__ = _frozen_setattr, _frozen_delattr, _hash
     cls.__module__ = __name__  # the classes pickle by name (dask workers receive settings)
     cls.__doc__ = entries["doc"]
     return cls

@@ -76,6 +76,32 @@ def _first_number(tags, *names):
     return None
 
 
+_PNG_SIGNATURE = b"\x89PNG\r\n\x1a\n"
+
+
+def _may_hold_exif(path) -> bool:
+    """False for a PNG file without an ``eXIf`` chunk (chunks are skipped by their lengths,
+    image data unread); True for any other file."""
+    import struct
+
+    try:
+        with open(path, "rb") as fh:
+            if fh.read(8) != _PNG_SIGNATURE:
+                return True
+            while True:
+                head = fh.read(8)
+                if len(head) < 8:
+                    return False
+                length, kind = struct.unpack(">I4s", head)
+                if kind == b"eXIf":
+                    return True
+                if kind == b"IEND":
+                    return False
+                fh.seek(length + 4, 1)
+    except OSError:
+        return True
+
+
 def read_metadata(path) -> dict:
     """What a frame's EXIF says (keys present only when found and sensible).
 
@@ -89,6 +115,8 @@ def read_metadata(path) -> dict:
         sub-seconds as seconds on the camera's clock, for grouping frames), ``latitude_deg``,
         ``longitude_deg``, ``altitude_m``.
     """
+    if not _may_hold_exif(path):
+        return {}
     import exifread
 
     try:

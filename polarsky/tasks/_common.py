@@ -101,6 +101,8 @@ def _open_bracket(frames, settings, cal, noise, compiled) -> Opened:
     from ..write.summary import calibration_facts
 
     est = settings.estimate
+    if compiled is not False:
+        _prefetch_kernels(frames)
     t0 = time.perf_counter()
     bracket = load_bracket(frames, settings.read)
     t_read = time.perf_counter() - t0
@@ -125,6 +127,28 @@ def _open_bracket(frames, settings, cal, noise, compiled) -> Opened:
     }
     return Opened(source=BracketSource(bracket, w, compiled=compiled), noise=noise, facts=facts, bracket=bracket,
                   inputs=facts["inputs"], timing={"read": t_read, "align": t_align})
+
+
+def _prefetch_kernels(frames) -> None:
+    """Load the compiled kernels in the background while the frames are decoded, when the
+    headers say the bracket is large enough to use them (:func:`polarsky.estimate.runner.use_compiled`)."""
+    from pathlib import Path
+
+    from .._shared.prefetch import prefetch
+    from ..estimate.runner import use_compiled
+    from ..read.formats import header_pixels
+
+    files = [f for f in frames if Path(f).is_file()]
+    pixels = [header_pixels(f) for f in files]
+    if not files or None in pixels or not use_compiled(sum(pixels)):
+        return
+
+    def load():
+        from ..core.kernels.dispatch import warm
+
+        warm(len(files))
+
+    prefetch(load)
 
 
 def _open_mosaic(frames, settings, cal, noise, compiled) -> Opened:
@@ -189,17 +213,10 @@ def check_estimate(info: dict, settings, channels) -> None:
     counted = valid + bad
     worst = int(np.argmax(bad / np.maximum(counted, 1)))
     if bad[worst] > IMPOSSIBLE_FRACTION * counted[worst]:
-        est = settings.estimate
-        if est.extinction is not None:
-            from ..core.stokes import diattenuation_from_extinction
+        from .._shared.checks import dolp_above_one_cause
 
-            cause = (f"--extinction {est.extinction:g} (diattenuation {diattenuation_from_extinction(est.extinction):.3g})"
-                     " is lower than the filter's: measure it ('polarsky calibrate') or leave it out")
-        elif est.calibration is not None:
-            cause = "the calibration does not fit this camera and filter: check --calibration"
-        else:
-            cause = ("check the analyzer angles (--angles, the manifest or the file names) and that every frame shows "
-                     "the same scene at the same exposure")
+        est = settings.estimate
+        cause = dolp_above_one_cause(est.extinction, est.calibration)
         where = "" if len(channels) == 1 else f" of channel {channels[worst]}"
         raise InputError(f"DoLP above 1, which no light has, in {bad[worst]} of {counted[worst]} valid pixels{where} "
                          f"(up to {_plain(info['largest_dolp'])}): the filter model does not fit these frames; {cause}")

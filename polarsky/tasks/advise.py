@@ -60,7 +60,7 @@ def run_advise(frames=(), out_dir=None, settings=None, *, progress: bool = False
         if adv.protect is not None:
             masks["protect"] = adv.protect.as_mask(src.shape)
         sink = RegionSink(masks)
-        preview = PreviewSink(src.shape, max_side=1200)
+        preview = PreviewSink(src.shape, max_side=1200, names=("S0", "S1", "S2", "valid"))
         info = run_blocks(src, op.noise, [sink, preview] if out_dir is not None else [sink], progress=progress)
         check_estimate(info, settings, src.channels)
         extinction = settings.estimate.extinction

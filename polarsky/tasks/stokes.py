@@ -112,9 +112,12 @@ def run_stokes(frames=(), out_dir=None, settings=None, *, progress: bool = False
     from ..write.stage import check_destination, open_stage
     from ..write.summary import build_summary
 
+    from .._shared.prefetch import prefetch_modules
+
     settings = resolve_settings(settings, options)
     t_start = time.perf_counter()
     check_destination(out_dir)
+    prefetch_modules("h5py")  # for stokes.nc, while the frames are decoded
     with collect_warnings() as caught:
         op = open_source(frames, settings)
         src = op.source

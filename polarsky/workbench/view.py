@@ -16,6 +16,7 @@ import math
 
 import numpy as np
 
+from .._shared.stats import percentile
 from ..core.stokes import dolp_aolp
 from ..core.transfer import linear_to_srgb
 from ..write.pictures.canvas import colour_lut, encode_png, hsv_rgb
@@ -126,8 +127,8 @@ class View:
     def _stats(self):
         s0 = self._sample(self.arrays["S0"])
         ok = self._sample(self.valid_all)
-        top = float(np.percentile(np.max(s0, axis=0)[ok], 99.5)) if ok.any() else 1.0
-        top_sum = float(np.percentile(np.sum(s0, axis=0)[ok], 99.5)) if ok.any() else 1.0
+        top = percentile(np.max(s0, axis=0)[ok], 99.5) if ok.any() else 1.0
+        top_sum = percentile(np.sum(s0, axis=0)[ok], 99.5) if ok.any() else 1.0
         self.top = top if top > 0 else 1.0
         self.top_sum = top_sum if top_sum > 0 else 1.0
         self.ranges = dict(_FIXED_RANGES)
@@ -140,7 +141,7 @@ class View:
             else:
                 a = self._sample(self.arrays[name])[self.display_channel]
             vals = a[ok & np.isfinite(a)]
-            hi = float(np.percentile(vals, 99)) if vals.size else 1.0
+            hi = percentile(vals, 99) if vals.size else 1.0
             self.ranges[name] = (0.0, hi if hi > 0 else 1.0)
 
     # -------------------------------------------------------------- what the page is told

@@ -24,13 +24,12 @@ import numpy as np
 
 from .._version import __version__
 from ..conventions import ANGLE_CONVENTION, VARIABLES
+from .._shared.deflate import LEVEL, deflate
 from .jsonio import jsonable
 
-__all__ = ["NetCDFFile", "StokesWriter", "encode_attrs", "base_attrs", "deflate"]
+__all__ = ["NetCDFFile", "StokesWriter", "encode_attrs", "base_attrs"]
 
 _NOT_A_VARIABLE = "This is a netCDF dimension but not a netCDF variable."
-#: deflate level of every compressed variable
-LEVEL = 1
 
 
 def encode_attrs(attrs: dict) -> dict:
@@ -52,18 +51,6 @@ def base_attrs(title: str) -> dict:
     """Attributes every file polarsky writes carries."""
     return {"title": title, "software": "polarsky", "software_version": __version__,
             "angle_convention": ANGLE_CONVENTION, "Conventions": "CF-1.8"}
-
-
-def deflate(data: bytes) -> bytes:
-    """A zlib stream of ``data`` (ISA-L when installed, else the standard library)."""
-    try:
-        from isal import isal_zlib
-
-        return isal_zlib.compress(data, LEVEL)
-    except ImportError:  # pragma: no cover - isal is a dependency; the format is the same
-        import zlib
-
-        return zlib.compress(data, LEVEL)
 
 
 def shuffled(a: np.ndarray) -> bytes:

@@ -10,6 +10,7 @@ from pathlib import Path
 
 import numpy as np
 
+from ..._shared.stats import percentile as percentile_of
 from ...core.transfer import linear_to_srgb
 from ...palette import CHECKER_GREYS
 from .canvas import DPI
@@ -45,7 +46,7 @@ def tone_map(s0, valid=None, *, percentile: float = 99.5) -> np.ndarray:
     """Linear intensity -> display value in [0, 1] (scaled to a high percentile, sRGB-encoded)."""
     s = np.asarray(s0, dtype=np.float32)
     ok = np.isfinite(s) if valid is None else (valid & np.isfinite(s))
-    top = np.percentile(s[ok], percentile) if ok.any() else 1.0
+    top = percentile_of(s[ok], percentile) if ok.any() else 1.0
     top = top if top > 0 else 1.0
     return linear_to_srgb(np.clip(np.nan_to_num(s / top), 0, 1)).astype(np.float32)
 

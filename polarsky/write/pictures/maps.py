@@ -12,6 +12,7 @@ from pathlib import Path
 
 import numpy as np
 
+from ..._shared.stats import percentile
 from ...palette import AXIS_LABEL_X, AXIS_LABEL_Y, INVALID_NOTE
 from .canvas import colour_lut, colourize, compose, template, write_png
 
@@ -85,7 +86,7 @@ def save_map_png(path, array, *, kind: str, title: str, valid=None, label: str =
     if vmin is None:
         vmin = float(np.nanmin(a[ok])) if ok.any() else 0.0
     if vmax is None:
-        vmax = _nice_ceiling(float(np.nanpercentile(a[ok], 99)) - vmin) + vmin if ok.any() else vmin + 1.0
+        vmax = _nice_ceiling(percentile(a[ok], 99) - vmin) + vmin if ok.any() else vmin + 1.0
     params = {"shape": list(a.shape), "step": int(step), "title": title, "label": label, "cmap": cmap,
               "vmin": float(vmin), "vmax": float(vmax), "ticks": ticks}
     tpl = template("map", params, _draw_map)
