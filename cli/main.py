@@ -83,10 +83,14 @@ def _names_as_given() -> list:
     return changed
 
 
-class _Stopped(BaseException):
-    """SIGTERM or SIGINT arrived: unwind (staging folders are removed, outputs stay whole).
+#: What a run stopped by SIGTERM or Ctrl-C says.
+INTERRUPTED = "error: interrupted (no output folder was left half-written)"
 
-    Not a KeyboardInterrupt, which click turns into an "Aborted!" with an empty line first."""
+
+class _Stopped(BaseException):
+    """SIGTERM arrived: unwind (staging folders are removed, outputs stay whole).
+
+    Not a KeyboardInterrupt, which click turns into an abort with an empty line first."""
 
     def __init__(self, signum: int):
         super().__init__(signum)
@@ -103,11 +107,11 @@ def main(args=None) -> int:
     warnings.showwarning = _show_warning
     streams = _names_as_given()
     old_handlers = {}
-    for sig in (signal.SIGTERM, signal.SIGINT) if sys.platform != "win32" else ():
-        try:  # SIGTERM and Ctrl-C clean up: staging folders are removed, outputs stay whole
-            old_handlers[sig] = signal.signal(sig, _terminate)
+    if sys.platform != "win32":
+        try:  # SIGTERM cleans up as Ctrl-C does: staging folders are removed, outputs stay whole
+            old_handlers[signal.SIGTERM] = signal.signal(signal.SIGTERM, _terminate)
         except ValueError:  # not the main thread (tests calling main in a worker)
-            break
+            pass
     try:
         rv = cli.main(args=args, prog_name="polarsky", standalone_mode=False)
         return int(rv or 0)
@@ -124,11 +128,14 @@ def main(args=None) -> int:
         return 2
     except click.exceptions.Exit as exc:
         return int(exc.exit_code)
-    except click.Abort:
+    except click.Abort as exc:
+        if isinstance(exc.__cause__, KeyboardInterrupt):  # Ctrl-C (click has ended the line)
+            print(INTERRUPTED, file=sys.stderr)
+            return 128 + signal.SIGINT
         print("error: aborted", file=sys.stderr)
         return 2
     except (_Stopped, KeyboardInterrupt) as exc:
-        print("error: interrupted (no output folder was left half-written)", file=sys.stderr)
+        print(INTERRUPTED, file=sys.stderr)
         return 128 + getattr(exc, "signum", signal.SIGINT)
     except MemoryError:
         print("error: out of memory; process smaller frames or raise the machine's memory", file=sys.stderr)

@@ -142,16 +142,16 @@ def test_decimal_commas_and_unicode_minus_in_names_are_read(tmp_path, capsys):
     assert json.loads(capsys.readouterr().out)["analyzer_angles_deg"] == angles
 
 
-@pytest.mark.parametrize("extra, match", [
-    (["--extinction", "1"], "--extinction 1 is the extinction ratio Tmax/Tmin and must be a finite number above 1"),
-    (["--extinction", "inf"], "--extinction must be a finite number, got inf"),
-    (["--angle-offset", "nan"], "--angle-offset must be a finite number, got nan"),
-    (["--angle-offset", "inf"], "--angle-offset must be a finite number, got inf"),
-    (["--angle-offset", "4_5"], "no underscores between digits"),
-    (["--angles", "0,45,9" + "0" * 400 + ",135"], "is too large to be a number here"),
+@pytest.mark.parametrize("option, value, match", [
+    ("--extinction", "1", "--extinction 1 is the extinction ratio Tmax/Tmin and must be a finite number above 1"),
+    ("--extinction", "inf", "--extinction must be a finite number, got inf"),
+    ("--angle-offset", "nan", "--angle-offset must be a finite number, got nan"),
+    ("--angle-offset", "inf", "--angle-offset must be a finite number, got inf"),
+    ("--angle-offset", "4_5", "no underscores between digits"),
+    ("--angles", "0,45,9" + "0" * 400 + ",135", "is too large to be a number here"),
 ])
-def test_option_values_that_are_no_numbers_are_one_line(four, tmp_path, capsys, extra, match):
-    _one_error(_stokes(four, tmp_path / "o", *extra), capsys, match)
+def test_option_values_that_are_no_numbers_are_one_line(four, tmp_path, capsys, option, value, match):
+    _one_error(_stokes(four, tmp_path / "o", option, value), capsys, match)
 
 
 @pytest.mark.parametrize("row, match", [

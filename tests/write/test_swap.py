@@ -73,38 +73,27 @@ def _run_wrapped(args, *, before="    pass", after="    pass"):
                           timeout=120)
 
 
-def test_sigkill_right_after_the_exchange_leaves_the_new_run_whole(brackets, tmp_path):
+@pytest.mark.parametrize("where, sig, frames", [
+    ("after", signal.SIGKILL, 3),   # killed right after the exchange: the new run is in place, the old one aside
+    ("before", signal.SIGKILL, 4),  # killed before it: the earlier run stays, the complete staging folder aside
+    ("before", signal.SIGTERM, 3),  # SIGTERM while publishing waits for the exchange, then unwinds
+])
+def test_a_run_stopped_while_publishing_leaves_one_whole_run(brackets, tmp_path, where, sig, frames):
     four, three = brackets
     out = tmp_path / "out"
     run_stokes(four, out, pictures=False)
-    r = _run_wrapped(["stokes", *three, "--out", out, "--no-pictures"], after="    os.kill(os.getpid(), signal.SIGKILL)")
-    assert r.returncode == -signal.SIGKILL
-    assert _whole(out)["frames"] == 3 and "residual" not in _visible(out)
-    assert _hidden_beside(out)  # the earlier result, under the staging name, not yet removed
-    run_stokes(four, out, pictures=False)  # the next run into the folder cleans up
-    assert _whole(out)["frames"] == 4 and _hidden_beside(out) == []
-
-
-def test_sigkill_before_the_exchange_keeps_the_earlier_run_whole(brackets, tmp_path):
-    four, three = brackets
-    out = tmp_path / "out"
-    run_stokes(four, out, pictures=False)
-    r = _run_wrapped(["stokes", *three, "--out", out, "--no-pictures"], before="    os.kill(os.getpid(), signal.SIGKILL)")
-    assert r.returncode == -signal.SIGKILL
-    assert _whole(out)["frames"] == 4
-    assert [n for n in _hidden_beside(out) if f".{STAGING}-" in n]  # the killed run's complete staging folder
-    run_stokes(three, out, pictures=False)
-    assert _whole(out)["frames"] == 3 and _hidden_beside(out) == []
-
-
-def test_sigterm_while_publishing_finishes_the_swap_and_says_one_line(brackets, tmp_path):
-    four, three = brackets
-    out = tmp_path / "out"
-    run_stokes(four, out, pictures=False)
-    r = _run_wrapped(["stokes", *three, "--out", out, "--no-pictures"], before="    os.kill(os.getpid(), signal.SIGTERM)")
-    assert r.returncode == 128 + signal.SIGTERM
-    assert r.stderr.splitlines() == ["error: interrupted (no output folder was left half-written)"]
-    assert _whole(out)["frames"] == 3 and _hidden_beside(out) == []
+    hook = f"    os.kill(os.getpid(), {int(sig)})"
+    r = _run_wrapped(["stokes", *three, "--out", out, "--no-pictures"], **{where: hook})
+    assert _whole(out)["frames"] == frames and "residual" not in _visible(out)
+    if sig == signal.SIGKILL:
+        assert r.returncode == -signal.SIGKILL
+        assert _hidden_beside(out)  # what the killed run could not remove ...
+        run_stokes(four if frames == 3 else three, out, pictures=False)
+        assert _hidden_beside(out) == []  # ... the next run into the folder removes
+    else:
+        assert r.returncode == 128 + signal.SIGTERM
+        assert r.stderr.splitlines() == ["error: interrupted (no output folder was left half-written)"]
+        assert _hidden_beside(out) == []
 
 
 def test_sigterm_before_publishing_keeps_the_earlier_run_and_leaves_nothing(brackets, tmp_path):
