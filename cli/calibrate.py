@@ -15,10 +15,11 @@ CALIBRATE_MODULES: list[str] = [
     "calibrate_flat",
     "calibrate_sky",
     "calibrate_ring",
+    "calibrate_response",
 ]
 
 
-@click.group(name="calibrate", short_help="Make a calibration (flat bench frames, the clear sky, the filter ring's zero).")
+@click.group(name="calibrate", short_help="Make a calibration (flat bench frames, clear sky, filter ring, camera response).")
 def command():
     """Make a calibration folder (calibration.nc, calibration.json) for '--calibration DIR'."""
 

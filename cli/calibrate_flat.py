@@ -9,7 +9,9 @@ from polarsky.write.jsonio import print_json
 from .options import frames_command, pop_settings
 
 GROUPS = ("read", "mosaic", "calibrate")
-EXCLUDE = ("manifest", "max_pixels", "demosaic", "bracket_size", "pose", "reference_dolp_max", "per_position")
+EXCLUDE = ("manifest", "max_pixels", "demosaic", "bracket_size", "pose", "reference_dolp_max", "per_position",
+           # bracket-only reading options and the response-curve command's own
+           "orientation", "angle_frame", "exposure", "response", "float_scale", "exposures", "response_method")
 
 
 @frames_command("flat", groups=GROUPS, exclude=EXCLUDE, short_help='Per-pixel calibration of a mosaic sensor from bench frames.',

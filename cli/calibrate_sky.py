@@ -9,7 +9,7 @@ from polarsky.write.jsonio import print_json
 from .options import ANGLE_HELP, frames_command, pop_settings
 
 GROUPS = ("read", "mosaic", "estimate", "geometry", "sky", "calibrate")
-EXCLUDE = ("dark",)
+EXCLUDE = ("dark", "exposures", "response_method")
 
 
 @frames_command("sky", groups=GROUPS, exclude=EXCLUDE, short_help='Analyzer angle offset from the clear sky.',

@@ -30,8 +30,18 @@ def command(frames, out_dir, as_json, **kw):
                f"analyzers at {', '.join(f'{a:g}' for a in summary['analyzer_angles_deg'])} deg "
                f"({summary['angle_source']}), {summary['width_px']}x{summary['height_px']} px, channels "
                f"{','.join(summary['channels'])}")
+    if summary.get("orientation") not in (None, 1):
+        click.echo(f"shown with orientation {summary['orientation']} (angles on the {summary['angle_frame']} layout)")
     if summary.get("shifts_px"):
-        click.echo("alignment shifts (dx, dy px): " + "; ".join(f"{dx:+.2f},{dy:+.2f}" for dx, dy in summary["shifts_px"]))
+        click.echo("alignment (dx, dy px; roll deg counter-clockwise; scale): " + "; ".join(
+            f"{dx:+.2f},{dy:+.2f} {r:+.3f} {sc:.4f}" for (dx, dy), r, sc in
+            zip(summary["shifts_px"], summary["rotations_deg"], summary["scales"])))
+        if summary.get("roll_corrections_deg"):
+            click.echo("analyzer angles corrected for the roll (filter on the lens; --filter-mount scene if it was "
+                       "fixed to the scene)")
+    if summary.get("exposure_estimate"):
+        click.echo("relative exposure from the bracket itself: " + ", ".join(
+            f"{g:.3f}" for g in summary["exposure_estimate"]) + f" (applied: {summary['exposure_source']})")
     click.echo("mean DoLP: " + ", ".join(f"{k} {v:.3f}" for k, v in summary["mean_dolp"].items() if v is not None))
     if summary.get("median_relative_residual") is not None:
         click.echo(f"fit residual: median {summary['median_relative_residual'] * 100:.2f}% of S0, "

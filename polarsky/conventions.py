@@ -10,6 +10,7 @@ __all__ = [
     "SATURATION_FRACTION",
     "DEFAULT_MAX_PIXELS",
     "TRANSFERS",
+    "SRGB_NOTE",
     "ANGLE_CONVENTION",
     "ANGLE_HELP",
     "VARIABLES",
@@ -24,6 +25,9 @@ SATURATION_FRACTION = 0.98
 DEFAULT_MAX_PIXELS = 250_000_000
 #: Accepted values of the ``transfer`` setting: ``auto`` = 8-bit sRGB, deeper data linear.
 TRANSFERS = ("auto", "linear", "srgb")
+#: The note said whenever 8-bit frames are linearized by the assumed sRGB curve.
+SRGB_NOTE = ("8-bit frames were linearized by the assumed sRGB curve; a camera's own tone curve can bias DoLP "
+             "(measure it with 'polarsky calibrate response' and give --response)")
 #: Where the analyzers sit: a filter in front of the lens, or micro-polarizers on the sensor.
 PLACEMENTS = ("front", "sensor")
 

@@ -8,7 +8,7 @@ from __future__ import annotations
 
 from ._shared.registry import Registry
 
-__all__ = ["DEMOSAIC_METHODS", "LENS_MODELS", "SKY_MODELS", "SKY_RADIANCE_MODELS", "SURFACES"]
+__all__ = ["DEMOSAIC_METHODS", "LENS_MODELS", "SKY_MODELS", "SKY_RADIANCE_MODELS", "SURFACES", "RESPONSE_METHODS"]
 
 #: Decoding of a polarization mosaic (``--demosaic``): entries are
 #: :class:`polarsky.mosaic.methods.DemosaicMethod`.
@@ -45,4 +45,11 @@ SURFACES = Registry("surface", "--surface", {
     "water": "polarsky.core.refractive_index:WATER",
     "glass": "polarsky.core.refractive_index:GLASS",
     "ice": "polarsky.core.refractive_index:ICE",
+})
+
+#: Recovery of a camera response curve from an exposure series (``calibrate response --response-method``):
+#: entries are :class:`polarsky.core.response.ResponseMethod`.
+RESPONSE_METHODS = Registry("response method", "--response-method", {
+    "debevec": "polarsky.core.response:DEBEVEC",
+    "robertson": "polarsky.core.response:ROBERTSON",
 })

@@ -186,9 +186,42 @@ def extinction(value, what, base=None, spec=None):
 
 def bit_depth(value, what, base=None, spec=None):
     v = positive_int(value, what)
-    if v not in (8, 10, 12, 14, 16):
-        raise InputError(f"{what} {number_text(v)} must be one of 8, 10, 12, 14, 16")
+    if not 8 <= v <= 32:
+        raise InputError(f"{what} {number_text(v)} must be a whole number of bits from 8 to 32")
     return v
+
+
+def exposures(value, what, base=None, spec=None):
+    """Positive exposure times in seconds, separated by commas; ``1/250`` as cameras show them."""
+    items = list(value) if isinstance(value, (list, tuple)) else [t.strip() for t in str(value).split(",")]
+    vals = []
+    for t in items:
+        if isinstance(t, str) and t.count("/") == 1:
+            num, den = (_num(x, what) for x in t.split("/"))
+            vals.append(check_positive(num, what) / check_positive(den, what))
+        else:
+            vals.append(check_positive(_num(t, what), what))
+    return tuple(vals)
+
+
+def orientation(value, what, base=None, spec=None):
+    """``auto`` or an EXIF/TIFF Orientation value 1..8."""
+    s = str(value).strip().lower()
+    if s == "auto":
+        return "auto"
+    if s in tuple("12345678"):
+        return int(s)
+    raise InputError(f"{what} {value!r} must be auto or an orientation 1..8 (1 = as stored, 6 = turned 90 deg "
+                     "clockwise, 8 = counter-clockwise, 3 = 180 deg)")
+
+
+def response(value, what, base=None, spec=None):
+    """A response-curve file or folder (checked when read), or a ResponseCurve (Python API)."""
+    from ..read.response_file import find_response
+
+    if hasattr(value, "lut"):
+        return value
+    return _in_file(what, lambda: find_response(path(value, what, base)))
 
 
 def mosaic_cell(value, what, base=None, spec=None):

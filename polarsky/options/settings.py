@@ -185,7 +185,7 @@ class Settings:
         """Refuse options that do not fit the kind of frames (mosaic or bracket) being estimated."""
         given = self.given
         if self.mosaic.mosaic is None:
-            extra = [n for n in ("mosaic_colour", "bit_depth", "black_level", "demosaic") if n in given]
+            extra = [n for n in ("mosaic_colour", "black_level", "demosaic") if n in given]
             if extra:
                 flags = ", ".join("--" + n.replace("_", "-") for n in extra)
                 raise InputError(f"{flags} apply only to mosaic frames; add --mosaic CELL (e.g. \"90,45;135,0\") "
@@ -194,6 +194,11 @@ class Settings:
         bracket_only = {"angles": self.read.angles, "manifest": self.read.manifest,
                         "extinction": self.estimate.extinction, "angle_offset": self.estimate.angle_offset,
                         "align": self.estimate.align}
+        for n in ("orientation", "angle_frame", "exposure", "response", "float_scale", "filter_mount"):
+            if n in given:
+                flag = "--" + n.replace("_", "-")
+                raise InputError(f"{flag} applies to a bracket of frames; mosaic frames are read in the sensor's own "
+                                 f"layout and scale (the cell fixes their angles); drop {flag}")
         for n, v in bracket_only.items():
             if n in given and v not in (None, 0.0, False):
                 flag = "--" + n.replace("_", "-")

@@ -5,7 +5,13 @@ float32 values row block by row block (:meth:`Bracket.linear_block`), so a large
 exists in float form all at once.  Radiometry follows the project conventions: 8-bit images
 are sRGB-encoded by default, deeper data and raw files linear; values are scaled to [0, 1]
 of full scale and divided by the relative exposure; pixels at or above 98 % of full scale in
-any frame, or at the black level, are not valid.
+any frame, at the black level, or NaN/inf (floating-point TIFFs), are not valid.  With a
+camera response curve (``--response``, :mod:`polarsky.read.response_file`) 8-bit frames are
+linearized by that curve instead of the assumed sRGB one.
+
+All frames of a bracket are shown in one display orientation (:mod:`polarsky.read.orientation`):
+the first frame's tag, or ``--orientation``; a camera pointing up may flip the tag from frame
+to frame while the sensor and the filter stayed put, so frames are never turned one by one.
 """
 
 from __future__ import annotations
@@ -18,9 +24,9 @@ from pathlib import Path
 import numpy as np
 
 from .._shared.checks import check_distinct_files
-from ..conventions import SATURATION_FRACTION
+from ..conventions import SATURATION_FRACTION, SRGB_NOTE
 from ..core.stokes import check_angles
-from ..core.transfer import srgb_lut
+from ..core.transfer import srgb_lut, srgb_to_linear
 from ..errors import InputError, PolarskyWarning
 from .frames import Frame, read_frame
 from .manifest import read_manifest
@@ -48,6 +54,17 @@ class Bracket:
         ``"none"``, ``"manifest"`` or ``"exif"``.
     coverage : ndarray (H, W) bool or None
         Pixels inside every aligned frame (None: all).
+    orientation : int
+        Display orientation applied to every frame (1..8).
+    angle_map : tuple (sign, turn_deg)
+        Given angles ``a`` are ``sign * a + turn_deg`` on the displayed image.
+    exposure_metadata : ndarray (N,) or None
+        Relative exposure from the manifest or EXIF (also when not applied).
+    rotations_deg, scales : ndarray (N,) or None
+        Roll (counter-clockwise as displayed) and scale of each frame relative to the first,
+        removed by alignment.
+    response : ResponseCurve or None
+        The camera response curve 8-bit frames were linearized with.
     """
 
     frames: list
@@ -57,6 +74,18 @@ class Bracket:
     angle_source: str = "option"
     exposure_source: str = "none"
     coverage: np.ndarray | None = field(default=None, repr=False)
+    orientation: int = 1
+    angle_map: tuple = (1, 0.0)
+    exposure_metadata: np.ndarray | None = None
+    rotations_deg: np.ndarray | None = None
+    scales: np.ndarray | None = None
+    response: object = None
+
+    @property
+    def display_angles_deg(self) -> np.ndarray:
+        """Analyzer angles on the displayed image (before any roll correction), degrees."""
+        sign, turn = self.angle_map
+        return sign * self.angles_deg + turn
 
     @property
     def n(self) -> int:
@@ -88,7 +117,7 @@ class Bracket:
 
     @property
     def srgb(self) -> bool:
-        return any(e == "srgb" for e in self.encodings)
+        return any(e in ("srgb", "response") for e in self.encodings)
 
     def linear_block(self, r0: int, r1: int, out=None, *, count_rows=None):
         """Linear, exposure-normalized float32 values of rows ``r0:r1``.
@@ -114,16 +143,29 @@ class Bracket:
         for k, fr in enumerate(self.frames):
             raw = fr.data[:, r0:r1]
             sat = raw >= SATURATION_FRACTION * fr.full_scale
-            blk = raw == 0
+            floating = raw.dtype.kind == "f"
+            blk = raw <= 0 if floating else raw == 0
+            if floating:
+                sat &= np.isfinite(raw)  # NaN and inf are not valid, counted apart
             c0, c1 = (0, h) if count_rows is None else (count_rows[0] - r0, count_rows[1] - r0)
             counts[k, 0] = int(sat[:, c0:c1].sum())
             counts[k, 1] = int(blk[:, c0:c1].sum())
             invalid |= sat
             invalid |= blk
-            if fr.encoding == "srgb":
+            if fr.encoding == "response":
+                for ci in range(c):
+                    np.take(self.response.lut[min(ci, self.response.lut.shape[0] - 1)], raw[ci], out=out[k, ci])
+            elif fr.encoding == "srgb" and not floating:
                 np.take(srgb_lut(int(fr.full_scale) + 1), raw, out=out[k])
             else:
                 np.multiply(raw, np.float32(1.0 / fr.full_scale), out=out[k], casting="unsafe")
+                if fr.encoding == "srgb":
+                    out[k] = srgb_to_linear(np.clip(out[k], 0, 1))
+            if floating:
+                bad = ~np.isfinite(raw)
+                if bad.any():
+                    invalid |= bad
+                    out[k][bad] = 0.0
             scale = self.exposure_scale[k]
             if scale != 1.0:
                 out[k] *= np.float32(1.0 / scale)
@@ -211,28 +253,87 @@ def load_bracket(frames=(), read=None) -> Bracket:
     check_distinct_files(files, angles)
     angles = np.asarray(angles, dtype=np.float64)
     check_angles(angles)
-    loaded = [read_frame(f, transfer=read.transfer, max_pixels=read.max_pixels) for f in files]
+    if read.response is not None and read.transfer != "auto":
+        raise InputError(f"--response and --transfer {read.transfer} both say how to linearize the frames; give one")
+    loaded = [read_frame(f, transfer=read.transfer, max_pixels=read.max_pixels, orientation=None,
+                         bit_depth=read.bit_depth, float_scale=read.float_scale) for f in files]
     _check_same_layout(loaded)
     _warn_identical_frames(loaded, angles)
     for fr in loaded:
         if (fr.data >= SATURATION_FRACTION * fr.full_scale).all():
             raise InputError(f"frame {fr.path} is saturated everywhere (>= 98% of full scale); shorten the exposure "
                              "and shoot it again")
-    exp, exposure_source = None, "none"
+        if fr.data.dtype.kind == "f":
+            bad = int((~np.isfinite(fr.data)).sum())
+            if bad:
+                warnings.warn(f"{bad} pixel values of {fr.path.name} are NaN or infinite; they are not valid",
+                              PolarskyWarning, stacklevel=2)
+    _linearization(loaded, read)
+    orientation, angle_map = _display(loaded, read)
+    meta_exp, exposure_source = None, "none"
     if explicit is not None:
         if any(e is None for e in explicit):
             raise InputError("exposure_s is given for some frames but not all; give it for every frame or for none")
-        exp, exposure_source = np.asarray(explicit, dtype=np.float64), "manifest"
+        meta_exp, exposure_source = np.asarray(explicit, dtype=np.float64), "manifest"
     elif all(fr.exposure is not None for fr in loaded):
-        exp, exposure_source = np.asarray([fr.exposure for fr in loaded], dtype=np.float64), "exif"
-    elif any(fr.exposure is not None for fr in loaded):
-        warnings.warn("EXIF exposure is present in some frames only; frames were not normalized for exposure",
-                      PolarskyWarning, stacklevel=2)
-    scale = np.ones(len(loaded)) if exp is None else exp / exp[0]
-    if exp is not None and np.allclose(scale, 1.0):
-        scale = np.ones(len(loaded))
+        meta_exp, exposure_source = np.asarray([fr.exposure for fr in loaded], dtype=np.float64), "exif"
+    elif any(fr.exposure is not None for fr in loaded) and read.exposure == "metadata":
+        missing = ", ".join(fr.path.name for fr in loaded if fr.exposure is None)
+        warnings.warn(f"EXIF exposure is missing in {missing}; frames were not normalized for exposure (give "
+                      "exposure_s in a --manifest, or --exposure auto)", PolarskyWarning, stacklevel=2)
+    meta_scale = None if meta_exp is None else meta_exp / meta_exp[0]
+    scale = np.ones(len(loaded))
+    if read.exposure == "metadata" and meta_scale is not None and not np.allclose(meta_scale, 1.0):
+        scale = meta_scale
+    if read.exposure != "metadata":
+        exposure_source = "none"  # "auto" is set when the estimate is applied
     return Bracket(frames=loaded, angles_deg=angles, exposure_scale=scale, shifts_px=np.zeros((len(loaded), 2)),
-                   angle_source=source, exposure_source=exposure_source)
+                   angle_source=source, exposure_source=exposure_source, orientation=orientation, angle_map=angle_map,
+                   exposure_metadata=meta_scale, response=read.response)
+
+
+def _linearization(loaded, read) -> None:
+    """Apply ``--response`` to 8-bit frames, or note that the sRGB curve is assumed."""
+    eight = [fr for fr in loaded if fr.data.dtype == np.uint8]
+    if read.response is not None:
+        deep = [fr for fr in loaded if fr.data.dtype != np.uint8]
+        if deep:
+            raise InputError(f"--response linearizes 8-bit frames, but {deep[0].path.name} has {deep[0].bits}-bit "
+                             "values (read as linear); leave --response out for these frames")
+        n_curve = read.response.lut.shape[0]
+        if n_curve not in (1, loaded[0].data.shape[0]):
+            raise InputError(f"response curve {read.response.source} has {n_curve} channel(s) but the frames have "
+                             f"{loaded[0].data.shape[0]}; make the curve from frames of the same kind")
+        for fr in loaded:
+            fr.encoding = "response"
+    elif eight and read.transfer == "auto":
+        warnings.warn(SRGB_NOTE, PolarskyWarning, stacklevel=3)
+
+
+def _display(loaded, read):
+    """Turn every frame to one display orientation; return it and the map of the given angles."""
+    from .orientation import ANGLE_MAP, ORIENTATION_NAMES, describe, to_display
+
+    if read.orientation == "auto":
+        chosen = loaded[0].orientation
+        odd = [fr.path.name for fr in loaded if fr.orientation != chosen]
+        if odd:
+            warnings.warn(f"the Orientation tags of the bracket differ ({', '.join(odd)} differ from "
+                          f"{loaded[0].path.name}'s {chosen}); all frames are shown as {loaded[0].path.name} "
+                          f"({describe(chosen)}); give --orientation to choose another", PolarskyWarning, stacklevel=3)
+    else:
+        chosen = int(read.orientation)
+    for fr in loaded:
+        fr.data = to_display(fr.data, chosen)
+        fr.displayed = chosen
+    if read.angle_frame == "displayed" or chosen == 1:
+        return chosen, (1, 0.0)
+    sign, turn = ANGLE_MAP[chosen]
+    what = ORIENTATION_NAMES[chosen]
+    warnings.warn(f"frames are shown {what} (orientation {chosen}); the analyzer angles, taken on the camera's own "
+                  f"layout (--angle-frame camera), are {'mirrored and ' if sign < 0 else ''}turned with the image by "
+                  f"{turn:+g} deg on the displayed image", PolarskyWarning, stacklevel=3)
+    return chosen, (sign, turn)
 
 
 def _check_same_layout(loaded) -> None:

@@ -6,7 +6,6 @@ from pathlib import Path
 
 import numpy as np
 
-from .._shared.checks import path_problem
 from ..errors import InputError
 from .stokes_file import decode_attrs
 
@@ -16,14 +15,9 @@ __all__ = ["read_calibration", "find_calibration"]
 def find_calibration(path) -> Path:
     """The calibration file named by ``--calibration``: the file, or the folder holding it."""
     from ..estimate.calibration import FILE_NAME
+    from .formats import file_in_folder
 
-    p = Path(path)
-    if p.is_dir():
-        p = p / FILE_NAME
-    if not p.is_file():
-        raise InputError(f"calibration {path} {path_problem(p) or 'is not a file'}; give the {FILE_NAME} (or the "
-                         "folder) written by 'polarsky calibrate'")
-    return p
+    return file_in_folder(path, FILE_NAME, what="calibration", maker="polarsky calibrate")
 
 
 def read_calibration(path):

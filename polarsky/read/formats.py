@@ -15,7 +15,7 @@ from pathlib import Path
 from ..errors import InputError
 
 __all__ = ["IMAGE_SUFFIXES", "RAW_SUFFIXES", "FRAME_SUFFIXES", "MOSAIC_SUFFIXES", "STOKES_SUFFIXES",
-           "is_frame", "frame_kind", "header_pixels", "check_complete"]
+           "is_frame", "frame_kind", "header_pixels", "check_complete", "file_in_folder"]
 
 #: Image files (8/16-bit grey or RGB; TIFF also float).
 IMAGE_SUFFIXES = (".png", ".tif", ".tiff", ".jpg", ".jpeg")
@@ -44,6 +44,22 @@ def frame_kind(path) -> str:
         return "raw"
     raise InputError(f"frame {path} has an unsupported type {suffix or '(none)'!r}; give PNG, TIFF, JPEG or a camera "
                      "raw file")
+
+
+def file_in_folder(path, file_name: str, *, what: str, maker: str) -> Path:
+    """The file an option names: ``path`` itself, or ``file_name`` inside the folder ``path``.
+
+    InputError naming ``what`` (``"calibration"``) and the command that makes it when missing.
+    """
+    p = Path(path)
+    if p.is_dir():
+        p = p / file_name
+    if not p.is_file():
+        from .._shared.checks import path_problem
+
+        raise InputError(f"{what} {path} {path_problem(p) or 'is not a file'}; give the {file_name} (or the folder) "
+                         f"written by '{maker}'")
+    return p
 
 
 def _png_size(head: bytes):

@@ -19,7 +19,7 @@ from pathlib import Path
 import numpy as np
 
 from .._shared.checks import path_problem
-from ..conventions import SATURATION_FRACTION, TRANSFERS
+from ..conventions import SATURATION_FRACTION, SRGB_NOTE, TRANSFERS
 from ..core.transfer import srgb_to_linear
 from ..errors import InputError, PolarskyWarning
 from .formats import MOSAIC_SUFFIXES, check_complete
@@ -67,9 +67,9 @@ def _read_counts(path: Path):
         return counts, black, white, "dng"
     try:
         if suffix in (".tif", ".tiff"):
-            import tifffile
+            from .tiff import read_tiff
 
-            counts = tifffile.imread(str(path))
+            counts, _ = read_tiff(path, what="mosaic frame")
         elif suffix == ".png":
             import cv2
 
@@ -229,6 +229,15 @@ def read_mosaic_stack(frames, *, bit_depth=None, black_level=None, transfer="aut
                           f"in {f.name} were masked", PolarskyWarning, stacklevel=2)
     acc /= np.float32(len(frames))
     first = infos[0]
+    if str(transfer).lower() == "auto" and first["transfer"] == "srgb":
+        warnings.warn(SRGB_NOTE, PolarskyWarning, stacklevel=2)
+    from .exif import read_metadata
+
+    tag = read_metadata(frames[0]).get("orientation", 1)
+    if tag != 1:
+        warnings.warn(f"{frames[0].name} says it is shown with orientation {tag}, but mosaic frames are decoded and "
+                      "mapped in the sensor's own layout: the maps and their angles are on the sensor's layout, not "
+                      "the displayed one", PolarskyWarning, stacklevel=2)
     info = {
         "files": [i["file"] for i in infos],
         "n_frames": len(frames),

@@ -106,24 +106,49 @@ def _open_bracket(frames, settings, cal, noise, compiled) -> Opened:
     t0 = time.perf_counter()
     bracket = load_bracket(frames, settings.read)
     t_read = time.perf_counter() - t0
-    shifts = None
+    shifts = corrections = None
     if est.align:
-        from ..estimate.align import align_bracket
+        from ..estimate.align import align_bracket, roll_corrections
 
         shifts = align_bracket(bracket).round(3).tolist()
+        if est.filter_mount == "lens":
+            corrections = roll_corrections(bracket.rotations_deg)
+    elif "filter_mount" in settings.given:
+        from ..errors import InputError
+
+        raise InputError("--filter-mount says how the analyzer angles follow a roll that --align measures; add "
+                         "--align or drop --filter-mount")
     t_align = time.perf_counter() - t0 - t_read
-    w, _ = analysis_matrices(bracket.angles_deg, bracket.n_channels, extinction=est.extinction,
-                             angle_offset=est.angle_offset, calibration=cal)
+    angles = bracket.display_angles_deg + (0.0 if corrections is None else corrections)
+    w, _ = analysis_matrices(angles, bracket.n_channels, extinction=est.extinction, angle_offset=est.angle_offset,
+                             calibration=cal)
+    checks = _self_checks(bracket, w, settings)
+    if checks.pop("reweighted"):
+        w, _ = analysis_matrices(angles, bracket.n_channels, extinction=est.extinction,
+                                 angle_offset=est.angle_offset, calibration=cal)
     h, wd = bracket.shape
+    sign = bracket.angle_map[0]
     facts = {
         "source_kind": "bracket", "inputs": [str(p) for p in bracket.paths], "frames": bracket.n,
-        "analyzer_angles_deg": bracket.angles_deg.tolist(), "angle_source": bracket.angle_source,
+        "analyzer_angles_deg": (bracket.angles_deg if sign > 0 else bracket.display_angles_deg).tolist(),
+        "angle_source": bracket.angle_source,
         "width_px": int(wd), "height_px": int(h), "output_pixel_size_px": 1, "channels": bracket.channels,
         "transfer": bracket.encodings, "polarizer": "front", "exposure_scale": bracket.exposure_scale.tolist(),
         "exposure_source": bracket.exposure_source,
         "condition_number": round(check_angles(bracket.angles_deg, warn_condition=np.inf), 4),
         "extinction_ratio": est.extinction, "analysis_matrix": np.round(w, 8).tolist(),
         "calibration": calibration_facts(cal), "aligned": bool(est.align), "shifts_px": shifts,
+        "orientation": bracket.orientation, "frame_orientations": [fr.orientation for fr in bracket.frames],
+        "angle_frame": settings.read.angle_frame,
+        "rotations_deg": None if bracket.rotations_deg is None else np.round(bracket.rotations_deg, 4).tolist(),
+        "scales": None if bracket.scales is None else np.round(bracket.scales, 6).tolist(),
+        "filter_mount": est.filter_mount if est.align else None,
+        "roll_corrections_deg": None if corrections is None else np.round(corrections, 4).tolist(),
+        "bit_depth": None if bracket.frames[0].floating else int(round(np.log2(bracket.frames[0].full_scale + 1))),
+        "float_scale": bracket.frames[0].full_scale if bracket.frames[0].floating else None,
+        "response": None if bracket.response is None else {"file": bracket.response.source,
+                                                           "method": bracket.response.method},
+        **checks,
     }
     return Opened(source=BracketSource(bracket, w, compiled=compiled), noise=noise, facts=facts, bracket=bracket,
                   inputs=facts["inputs"], timing={"read": t_read, "align": t_align})
@@ -149,6 +174,59 @@ def _prefetch_kernels(frames) -> None:
         warm(len(files))
 
     prefetch(load)
+
+
+def _self_checks(bracket, w, settings) -> dict:
+    """The bracket's own exposure estimate (4+ angles) and tone-curve check (5+ angles).
+
+    With ``--exposure auto`` the estimate becomes the bracket's exposure scale (``reweighted``
+    is then True); otherwise it is compared with the metadata and a disagreement is warned.
+    """
+    from ..errors import InputError
+    from ..estimate.consistency import estimate_exposure, evidently_wrong, sample_values, tone_check
+
+    out = {"exposure_estimate": None, "exposure_estimate_sigma": None, "response_check": None, "reweighted": False}
+    if bracket.n < 4:
+        if settings.read.exposure == "auto":
+            raise InputError(f"--exposure auto estimates each frame's exposure from a bracket of 4 or more angles; "
+                             f"this one has {bracket.n}; give exposure_s in a --manifest instead")
+        return out
+    values, valid = sample_values(bracket)
+    gain, sigma = estimate_exposure(values, valid, w)
+    applied = np.asarray(bracket.exposure_scale, dtype=np.float64)
+    if gain is not None:
+        total = applied * gain
+        out["exposure_estimate"] = np.round(total / total[0], 5).tolist()
+        out["exposure_estimate_sigma"] = np.round(sigma * applied / applied[0], 5).tolist()
+        off = np.abs(gain - 1) > np.maximum(0.03, 4 * sigma)
+        if settings.read.exposure == "auto":
+            if np.any(sigma > 0.02):
+                raise InputError("--exposure auto: the bracket does not pin down each frame's exposure (the scene "
+                                 "shows too few kinds of polarization); give exposure_s in a --manifest")
+            bracket.exposure_scale = total / total[0]
+            bracket.exposure_source = "bracket"
+            out["reweighted"] = True
+            values, valid = sample_values(bracket)
+        elif off.any():
+            names = ", ".join(f"{fr.path.name} x{g:.3f}" for fr, g, o in zip(bracket.frames, gain, off) if o)
+            what = "the metadata" if bracket.exposure_source != "none" else "equal exposures"
+            warnings.warn(f"the bracket itself says some frames were exposed differently from {what} ({names} "
+                          "relative to the first); check the exposure settings, or give --exposure auto to use "
+                          "the bracket's estimate", PolarskyWarning, stacklevel=3)
+    elif settings.read.exposure == "auto":
+        raise InputError("--exposure auto: the bracket does not pin down each frame's exposure (too few lit pixels, "
+                         "or too few kinds of polarization in the scene); give exposure_s in a --manifest")
+    check = tone_check(values, valid, w)
+    out["response_check"] = check
+    bad = evidently_wrong(check)
+    if bad:
+        where = "; ".join(f"levels {lo:g}..{hi:g}: {k:+.2f}" for lo, hi, k in bad)
+        how = (f"the response curve {bracket.response.source}" if bracket.response is not None
+               else "the assumed " + ("sRGB curve" if bracket.srgb else "linear response"))
+        warnings.warn(f"the bracket's fit residual says {how} is evidently wrong (tone curvature {where}; 0 = "
+                      "linear); DoLP is biased there: measure the camera's curve with 'polarsky calibrate response' "
+                      "and give --response", PolarskyWarning, stacklevel=3)
+    return out
 
 
 def _open_mosaic(frames, settings, cal, noise, compiled) -> Opened:

@@ -41,7 +41,15 @@ def stokes_products(frames, settings) -> dict:
     a = mem.arrays
     return {"S": np.stack([a["S0"], a["S1"], a["S2"]]), "dolp": a["dolp"], "aolp": a["aolp"], "valid": a["valid"],
             "channels": src.channels, "inputs": op.inputs,
-            "attrs": {k: op.facts[k] for k in ("polarizer", "analysis_matrix", "analyzer_angles_deg")}}
+            "attrs": {k: op.facts.get(k) for k in ("polarizer", "analysis_matrix", "analyzer_angles_deg", "orientation")}}
+
+
+def _turned_quarter(products) -> bool:
+    """Whether the maps are shown turned by a quarter turn (Orientation 5..8) from the sensor."""
+    try:
+        return int(products.get("attrs", {}).get("orientation") or 1) in (5, 6, 7, 8)
+    except (TypeError, ValueError):
+        return False
 
 
 def check_daylight(sun: dict, tp: dict) -> None:
@@ -121,6 +129,10 @@ def prepare_sky(frames, settings, *, stokes=None):
         elif "focal_35mm" in exif:
             # 35 mm equivalent focal length refers to the 43.27 mm diagonal (CIPA DC-008)
             focal_px, focal_source = exif["focal_35mm"] * np.hypot(w, h) / 43.2666, "exif FocalLengthIn35mmFilm"
+    if focal_px is None and focal_mm is not None and g.sensor_width_mm is not None and g.hfov_deg is None \
+            and _turned_quarter(products):
+        # the sensor's width spans the stored width, which a portrait display shows as its height
+        focal_px = float(focal_mm) * h / float(g.sensor_width_mm)
     lens = lens_of(g, w, h, focal_px=focal_px, focal_mm=focal_mm)
     polarizer = g.polarizer or str(products.get("attrs", {}).get("polarizer") or "front")
     if polarizer not in ("front", "sensor"):

@@ -99,8 +99,8 @@ def round_to_step(values: np.ndarray, step: float) -> np.ndarray:
 
     Examples
     --------
-    >>> round_to_step(np.array([0.30000001, -0.1, np.nan], np.float32), 2.0 ** -13)
-    array([ 0.29992676, -0.10009766,         nan], dtype=float32)
+    >>> round_to_step(np.array([0.30000001, -0.1, np.nan], np.float32), 2.0 ** -13)  # 2457.6 -> 2458, -819.2 -> -819
+    array([ 0.30004883, -0.09997559,         nan], dtype=float32)
     """
     a = np.asarray(values)
     if a.dtype != np.float32:

@@ -221,7 +221,9 @@ def test_time_and_place_from_exif_of_jpeg_frames(tmp_path):
         p = tmp_path / f"sky_{a:03d}deg.jpg"
         img.save(p, exif=ex, quality=98)
         paths.append(str(p))
-    res = run_sky(paths, tmp_path / "e", hfov_deg=70, yaw_deg=10, pitch_deg=25, roll_deg=4, pictures=False)
+    # transfer given: the frames are sRGB-encoded here (no note on an assumed curve)
+    res = run_sky(paths, tmp_path / "e", hfov_deg=70, yaw_deg=10, pitch_deg=25, roll_deg=4, pictures=False,
+                  transfer="srgb")
     assert res["time_source"] == "exif" and res["place_source"] == "exif"
     assert res["altitude_m"] == pytest.approx(400.0)
     ref = sun_position(parse_when(WHEN), LAT, LON, altitude_m=400.0)
@@ -247,6 +249,7 @@ def test_focal_length_from_exif_35mm_equivalent(tmp_path):
         p = tmp_path / f"f_{a:03d}deg.jpg"
         img.save(p, exif=ex, quality=95)
         paths.append(str(p))
-    res = run_sky(paths, tmp_path / "f", yaw_deg=10, pitch_deg=25, roll_deg=4, pictures=False, **PLACE)
+    res = run_sky(paths, tmp_path / "f", yaw_deg=10, pitch_deg=25, roll_deg=4, pictures=False, transfer="srgb",
+                  **PLACE)
     assert res["focal_source"] == "exif FocalLengthIn35mmFilm"
     assert res["lens"]["focal_px"] == pytest.approx(28 * np.hypot(64, 48) / 43.2666)
