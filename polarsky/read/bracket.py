@@ -258,7 +258,6 @@ def load_bracket(frames=(), read=None) -> Bracket:
     loaded = [read_frame(f, transfer=read.transfer, max_pixels=read.max_pixels, orientation=None,
                          bit_depth=read.bit_depth, float_scale=read.float_scale) for f in files]
     _check_same_layout(loaded)
-    _warn_identical_frames(loaded, angles)
     for fr in loaded:
         if (fr.data >= SATURATION_FRACTION * fr.full_scale).all():
             raise InputError(f"frame {fr.path} is saturated everywhere (>= 98% of full scale); shorten the exposure "
@@ -347,20 +346,3 @@ def _check_same_layout(loaded) -> None:
         if fr.data.shape[0] != first.data.shape[0]:
             raise InputError(f"frame {fr.path.name} has {fr.data.shape[0]} channel(s) but {first.path.name} has "
                              f"{first.data.shape[0]}; use all-grey or all-RGB frames")
-
-
-def _warn_identical_frames(loaded, angles) -> None:
-    """Warn when two frames at different analyzer angles (and the same exposure) hold the very
-    same pixel values: one picture saved under two names."""
-    step = max(1, loaded[0].data.size // 4096)
-    samples = [fr.data.reshape(-1)[::step] for fr in loaded]
-    for i in range(len(loaded)):
-        for j in range(i + 1, len(loaded)):
-            if ((angles[i] - angles[j]) % 180.0 == 0.0 or loaded[i].exposure != loaded[j].exposure
-                    or not np.array_equal(samples[i], samples[j])):
-                continue
-            if np.array_equal(loaded[i].data, loaded[j].data):
-                warnings.warn(f"frames {loaded[i].path.name} and {loaded[j].path.name} hold identical pixel values "
-                              f"although their analyzer angles differ ({angles[i]:g} and {angles[j]:g} deg); if one "
-                              "picture was saved twice, the result is wrong", PolarskyWarning, stacklevel=3)
-
