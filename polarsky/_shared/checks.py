@@ -186,8 +186,8 @@ def check_distinct_files(files, angles_deg, *, what: str = "frame") -> None:
         if key in seen:
             g, b = seen[key]
             same = "" if Path(g) == Path(f) else f" (as {Path(g).name} and {Path(f).name})"
-            raise InputError(f"{what} {f} is listed twice{same}, at {float(b):g} and {float(a):g} deg; each angle needs "
-                             "a picture of its own: check the frame list, --angles or the manifest")
+            raise InputError(f"{what} {f} is listed twice{same}, at {float(b):g} and {float(a):g} deg; each angle "
+                             "needs a picture of its own: check the frame list, --angles or the manifest")
         seen[key] = (f, a)
 
 

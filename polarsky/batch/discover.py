@@ -240,8 +240,8 @@ def discover_brackets(root, *, time_gap_s: float = 10.0, angles_deg=None, exclud
         for f in filenames:
             problem = None if f.startswith(".") or not os.path.islink(here / f) else path_problem(here / f)
             if problem is not None:  # a link that leads nowhere: say so instead of skipping it
-                found.append(Bracket(name=unique(rel_parts + (f,)), label=f"{label_dir}/{f}", frames=(), angles_deg=None,
-                                     manifest=None, rule="none", reason="a symbolic link in the tree",
+                found.append(Bracket(name=unique(rel_parts + (f,)), label=f"{label_dir}/{f}", frames=(),
+                                     angles_deg=None, manifest=None, rule="none", reason="a symbolic link in the tree",
                                      problem=f"{f} {problem}; fix or remove the link"))
         if MANIFEST_NAME in filenames:
             dirnames[:] = []

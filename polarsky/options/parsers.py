@@ -179,8 +179,8 @@ def sun_mask(value, what, base=None, spec=None):
 def extinction(value, what, base=None, spec=None):
     v = _num(value, what)
     if not v > 1:
-        raise InputError(f"{what} {number_text(v)} is the extinction ratio Tmax/Tmin and must be a finite number above 1 "
-                         "(leave it out for an ideal filter)")
+        raise InputError(f"{what} {number_text(v)} is the extinction ratio Tmax/Tmin and must be a finite number "
+                         "above 1 (leave it out for an ideal filter)")
     return v
 
 

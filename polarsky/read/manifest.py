@@ -97,7 +97,8 @@ def read_manifest(path, *, check_files: bool = True) -> Manifest:
             if problem == "does not exist":
                 problem += " next to the manifest"
             raise InputError(f"manifest {path} line {line} names {name!r}, which {problem}")
-        angles.append(parse_number(row[col["angle_deg"]], f"manifest {path} line {line}: angle_deg", decimal_comma=True))
+        angles.append(parse_number(row[col["angle_deg"]], f"manifest {path} line {line}: angle_deg",
+                                   decimal_comma=True))
         e = None
         if "exposure_s" in col and row[col["exposure_s"]]:
             e = parse_number(row[col["exposure_s"]], f"manifest {path} line {line}: exposure_s", allow_exponent=True,

@@ -19,7 +19,8 @@ from __future__ import annotations
 
 import numpy as np
 
-__all__ = ["MASK_REASONS", "describe_mask", "channel_mean", "sky_mask", "fit_dolp_max", "wrap_aolp_difference", "residual_stats",
+__all__ = ["MASK_REASONS", "describe_mask", "channel_mean", "sky_mask", "fit_dolp_max", "wrap_aolp_difference",
+           "residual_stats",
            "subsample"]
 
 #: Codes of the ``sky_mask_reason`` map: 0 = used for the fit.

@@ -285,9 +285,9 @@ def check_estimate(info: dict, settings, channels) -> None:
     bad = np.asarray(info["impossible_px"])
     if not (valid + bad).any():
         align = " or outside the frames' common area after alignment" if settings.estimate.align else ""
-        raise InputError(f"none of the {info['pixels']} pixels is valid: each is saturated (>= 98% of full scale) or at "
-                         f"the black level in at least one frame{align}; expose the frames again so that the scene is "
-                         "neither clipped nor black")
+        raise InputError(f"none of the {info['pixels']} pixels is valid: each is saturated (>= 98% of full scale) "
+                         f"or at the black level in at least one frame{align}; expose the frames again so that the "
+                         "scene is neither clipped nor black")
     counted = valid + bad
     worst = int(np.argmax(bad / np.maximum(counted, 1)))
     if bad[worst] > IMPOSSIBLE_FRACTION * counted[worst]:
@@ -300,8 +300,9 @@ def check_estimate(info: dict, settings, channels) -> None:
                          f"(up to {_plain(info['largest_dolp'])}): the filter model does not fit these frames; {cause}")
     if bad.any():
         warnings.warn(f"{int(bad.sum())} pixel values had a DoLP above 1 beyond their uncertainty (up to "
-                      f"{_plain(info['largest_dolp'])}) and were masked: no light is more than fully polarized (motion, "
-                      "a hot pixel or a reflection that changed between frames?)", PolarskyWarning, stacklevel=3)
+                      f"{_plain(info['largest_dolp'])}) and were masked: no light is more than fully polarized "
+                      "(motion, a hot pixel or a reflection that changed between frames?)", PolarskyWarning,
+                      stacklevel=3)
     if len(channels) > 1:
         for name, n in zip(channels, valid):
             if n == 0:

@@ -14,7 +14,8 @@ from .._version import __version__
 from ..conventions import SUN_CAUTION
 from ..errors import InputError, PolarskyWarning
 from ..sky.features import feature_bands
-from ..sky.fit import MASK_REASONS, channel_mean, describe_mask, fit_dolp_max, residual_stats, sky_mask, wrap_aolp_difference
+from ..sky.fit import (MASK_REASONS, channel_mean, describe_mask, fit_dolp_max, residual_stats, sky_mask,
+                       wrap_aolp_difference)
 from ..sky.orient import fit_orientation, sample_bracket
 from ..sky.rayleigh import RHO_AIR_YOUNG1980, dolp_max_bound
 from ..sky.skymap import model_maps
@@ -98,8 +99,8 @@ def compare(products, geom, info, out_dir, *, settings, model, max_fit_samples, 
     used = reason == 0
     n_used = int(np.count_nonzero(used))
     if n_used == 0:
-        raise InputError(f"no sky pixel is left for the comparison ({describe_mask(reason)}); check --when, --lat, --lon, "
-                         "the orientation (--yaw-deg, --pitch-deg, --roll-deg), the lens and --sky-mask")
+        raise InputError(f"no sky pixel is left for the comparison ({describe_mask(reason)}); check --when, --lat, "
+                         "--lon, the orientation (--yaw-deg, --pitch-deg, --roll-deg), the lens and --sky-mask")
     warn_few(n_used)
     shape_used = shape[used]
     joint = fit_dolp_max(dolp[:, used], np.broadcast_to(shape_used, (c, n_used)), seed=seed)

@@ -117,7 +117,7 @@ def _check(code, err, out: Path, before: dict, inputs: dict, folder: Path):
 
 
 @pytest.mark.filterwarnings("default::polarsky.errors.PolarskyWarning")  # shown as the command line shows them
-@settings(max_examples=50, deadline=None, suppress_health_check=[HealthCheck.function_scoped_fixture,
+@settings(max_examples=100, deadline=None, suppress_health_check=[HealthCheck.function_scoped_fixture,
                                                                  HealthCheck.too_slow])
 @given(case=runs())
 def test_any_names_manifest_and_options_give_a_whole_result_or_one_line(case, tmp_path, capsys):

@@ -90,5 +90,6 @@ def test_other_write_failures_and_sizes_in_words(tmp_path):
     out = tmp_path / "o"
     e = write_error(OSError(errno.EACCES, "Permission denied", str(tmp_path / ".o.polarsky-staging-1-0/a/x.png")),
                     out, staging=tmp_path / ".o.polarsky-staging-1-0")
-    assert str(e) == f"cannot write to {out} while writing a/x.png (Permission denied); choose a folder you can write to"
+    assert str(e) == (f"cannot write to {out} while writing a/x.png (Permission denied); choose a folder you can "
+                      "write to")
     assert [human_size(n) for n in (999, 1000, 2_500_000, 7.2e12)] == ["999 bytes", "1.0 kB", "2.5 MB", "7.2 TB"]
