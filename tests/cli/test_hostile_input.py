@@ -108,6 +108,15 @@ def test_a_sky_at_night_is_refused(sky_frames, tmp_path, capsys, command):
     _one_error(code, capsys, "deg below the horizon at 2024-06-21T01:30:00+02:00")
 
 
+@pytest.mark.filterwarnings("default::polarsky.errors.PolarskyWarning")
+def test_a_sky_run_prints_no_library_chatter(sky_frames, tmp_path, capsys):
+    # TIFF frames without EXIF go through the EXIF reader, which logs "no EXIF" when not kept quiet
+    code = main(["sky", *sky_frames, *SKY, "--when", "2024-06-21T17:30:00+02:00", "--out", str(tmp_path / "o"),
+                 "--no-pictures"])
+    err = capsys.readouterr().err
+    assert code == 0 and all(line.startswith("warning: ") for line in err.strip().splitlines()), err
+
+
 def test_a_sky_with_no_sky_pixel_left_is_refused(sky_frames, tmp_path, capsys):
     args = ["sky", *sky_frames, *SKY, "--when", "2024-06-21T17:30:00+02:00", "--out", str(tmp_path / "o")]
     args[args.index("--pitch-deg") + 1] = "-60"
