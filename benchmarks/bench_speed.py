@@ -52,8 +52,13 @@ def load() -> str:
     return f"load {os.getloadavg()[0]:.2f} on {os.cpu_count()} CPUs"
 
 
+#: Children run as a user's installation does: with compiled bytecode (.pyc) written and used.
+CHILD_ENV = {k: v for k, v in os.environ.items() if k != "PYTHONDONTWRITEBYTECODE"}
+
+
 def run(cmd, **kw):
     """Run ``cmd``; return (wall s, CPU s of the child, completed process)."""
+    kw.setdefault("env", CHILD_ENV)
     before = os.times()
     t = time.perf_counter()
     r = subprocess.run(cmd, capture_output=True, text=True, **kw)
@@ -232,6 +237,44 @@ def target23(work: Path, megapixels: float, repeat: int):
     return {"command_s": wall, "floor_s": fw, "peak_ratio": peak / decoded, "nc_ratio": nc_bytes / raw}
 
 
+# ---------------------------------------------------------------------------- kernel choice by size
+_ESTIMATE = r'''
+import sys, time
+t0 = time.perf_counter()
+from polarsky.options.settings import Settings
+from polarsky.tasks._common import open_source
+from polarsky.estimate.runner import run_blocks
+from polarsky.estimate.sinks import StatsSink
+compiled = sys.argv[1] == "compiled"
+op = open_source(sys.argv[2:], Settings(), compiled=compiled)
+run_blocks(op.source, op.noise, [StatsSink(op.source.shape, len(op.source.channels), compiled=compiled)])
+print(time.perf_counter() - t0)
+'''
+
+
+def kernel_choice(work: Path, repeat: int):
+    """New process: read + estimate every product with each path, at several sizes; the path
+    polarsky chooses (polarsky.estimate.runner.COMPILED_MIN_VALUES) should be the faster."""
+    from polarsky.estimate.runner import use_compiled
+    from tests.synth import render_frames, smooth_scene, write_tiffs
+
+    print(f"   kernel choice (new process, read + all products; {load()}):")
+    print(f"   {'values':>12} {'numpy':>8} {'compiled':>9}  chosen")
+    for h, w in ((480, 640), (1000, 1000), (1500, 2000), (2400, 3200)):
+        folder = work / f"k{h}"
+        angles = [0, 45, 90, 135]
+        paths = [str(p) for p in write_tiffs(folder, render_frames(smooth_scene(h, w), angles, noise=0.003), angles)]
+        n_values = 4 * h * w
+        times = {}
+        for kind in ("numpy", "compiled"):
+            times[kind] = min(float(run([sys.executable, "-c", _ESTIMATE, kind, *paths])[2].stdout)
+                              for _ in range(repeat))
+        chosen = "compiled" if use_compiled(n_values) else "numpy"
+        best = min(times, key=times.get)
+        print(f"   {n_values:>12,} {times['numpy']:7.2f}s {times['compiled']:8.2f}s  {chosen}"
+              + ("" if chosen == best else f"  (the {best} path was faster)"))
+
+
 # ---------------------------------------------------------------------------- 5. storage on the demo
 def target5(work: Path):
     import warnings
@@ -307,6 +350,7 @@ def main(argv=None):
     try:
         if 1 in only:
             target1(work, args.repeat)
+            kernel_choice(work, args.repeat)
         if only & {2, 3}:
             target23(work, args.megapixels, max(1, args.repeat - 1))
         if 5 in only:

@@ -18,7 +18,6 @@ from __future__ import annotations
 import hashlib
 import json
 import os
-import shutil
 import uuid
 from pathlib import Path
 

@@ -193,7 +193,14 @@ def estimate(inp: BlockInput, noise: NoiseModel, *, compiled: bool, smooth: bool
         if not uncertain:
             continue
         if mode == 1 and smooth:
-            var = smooth_variance(var)
+            if compiled:
+                from ..core.kernels.dispatch import smooth_pass
+
+                smoothed = np.empty(var.shape, np.float32)
+                smooth_pass(np.ascontiguousarray(var, np.float32), SMOOTH_RADIUS, smoothed)
+                var = smoothed
+            else:
+                var = smooth_variance(var)
         wm = inp.w[ci]
         cov = sk.stokes_covariance(wm, inp.weights)
         if compiled:

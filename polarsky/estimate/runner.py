@@ -12,8 +12,6 @@ from __future__ import annotations
 import sys
 import time
 
-import numpy as np
-
 from ..core.noise import NoiseModel
 from .block import SMOOTH_RADIUS, estimate, needs_context
 

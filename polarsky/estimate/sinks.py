@@ -70,8 +70,12 @@ class StatsSink:
     its quantiles do not depend on the block size.
     """
 
-    def __init__(self, shape, n_channels, max_samples: int = 200_000):
+    #: products summed over the valid pixels of each channel
+    SUMMED = ("dolp", "dolp_unbiased", "sigma_aolp", "S0", "S1", "S2")
+
+    def __init__(self, shape, n_channels, max_samples: int = 200_000, *, compiled: bool = False):
         c = n_channels
+        self.compiled = bool(compiled)
         self.width = shape[1]
         self.stride = max(1, int(np.prod(shape)) // max_samples)
         self.valid = np.zeros(c, np.int64)
@@ -87,12 +91,19 @@ class StatsSink:
         self.total += v[0].size
         for ci in range(v.shape[0]):
             m = v[ci]
-            self.valid[ci] += int(m.sum())
-            self.sum_dolp[ci] += float(np.sum(products["dolp"][ci][m], dtype=np.float64))
-            self.sum_dolp_unb[ci] += float(np.sum(products["dolp_unbiased"][ci][m], dtype=np.float64))
-            self.sum_sigma_aolp[ci] += float(np.sum(products["sigma_aolp"][ci][m], dtype=np.float64))
-            for j, name in enumerate(("S0", "S1", "S2")):
-                self.sum_s[ci, j] += float(np.sum(products[name][ci][m], dtype=np.float64))
+            self.valid[ci] += int(np.count_nonzero(m))
+            if self.compiled:  # one parallel pass instead of a copy per product
+                from ..core.kernels.dispatch import masked_sums
+
+                sums = np.zeros(len(self.SUMMED))
+                masked_sums(np.ascontiguousarray(m).reshape(-1),
+                            tuple(np.ascontiguousarray(products[k][ci]).reshape(-1) for k in self.SUMMED), sums)
+            else:
+                sums = [float(np.sum(products[k][ci][m], dtype=np.float64)) for k in self.SUMMED]
+            self.sum_dolp[ci] += sums[0]
+            self.sum_dolp_unb[ci] += sums[1]
+            self.sum_sigma_aolp[ci] += sums[2]
+            self.sum_s[ci] += sums[3:6]
         if "residual" in products:
             c = v.shape[0]
             take = slice((-r0 * self.width) % self.stride, None, self.stride)  # pixel index % stride == 0

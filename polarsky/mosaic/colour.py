@@ -60,7 +60,6 @@ def decode_colour(values, invalid, layout, method, rows=None, nominal=None, opti
     m = validate_method(method)
     h, w = values.shape
     hc, wc = h // 2, w // 2  # grid of cells
-    cc = bayer_cell_colours(layout.colour)
     scale = m.scale
     # intensities of each pixel's own colour, on the output grid (pixels or cells)
     oh, ow = (hc, wc) if scale == 2 else (h, w)

@@ -28,7 +28,7 @@ from ..conventions import SATURATION_FRACTION, SRGB_NOTE
 from ..core.stokes import check_angles
 from ..core.transfer import srgb_lut, srgb_to_linear
 from ..errors import InputError, PolarskyWarning
-from .frames import Frame, read_frame
+from .frames import read_frame
 from .manifest import read_manifest
 from .names import ANGLE_TOKEN_HELP, angle_from_name
 

@@ -10,7 +10,6 @@ from pathlib import Path
 
 import numpy as np
 
-from ..conventions import SUN_CAUTION
 from ..errors import InputError
 from ._common import collect_warnings, resolve_settings
 

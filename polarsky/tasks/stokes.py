@@ -132,7 +132,7 @@ def run_stokes(frames=(), out_dir=None, settings=None, *, progress: bool = False
                                   names=names, attrs={}, precision=precision_for(out.precision),
                                   full_scale=src.value_full_scale)
             preview = PreviewSink(src.shape)
-            stats = StatsSink(src.shape, len(src.channels))
+            stats = StatsSink(src.shape, len(src.channels), compiled=src.compiled)
             try:
                 info = run_blocks(src, op.noise, [_Timed(writer), preview, stats], rows=rows, progress=progress)
                 facts = _facts_after(op, info)

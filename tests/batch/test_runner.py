@@ -32,6 +32,7 @@ def _warm():
     import polarsky.batch.report  # noqa: F401  (imports the heavy modules once per worker)
     import polarsky.tasks.advise  # noqa: F401
     import polarsky.tasks.stokes  # noqa: F401
+
     return os.getpid()
 
 

@@ -22,9 +22,9 @@ import numpy as np
 from numba import prange
 
 from ..noise import model_variance as _model_variance
-from .policy import inline, parallel_kernel
+from .policy import inline, kernel, parallel_kernel
 
-__all__ = ["atan2_poly", "finish_pixel", "finish_pass", "uncertainty_pass"]
+__all__ = ["atan2_poly", "finish_pixel", "finish_pass", "uncertainty_pass", "smooth_pass", "masked_sums"]
 
 model_variance = inline(_model_variance)
 
@@ -142,3 +142,63 @@ def uncertainty_pass(s, dolp, var, cov, sig_dolp_out, sig_aolp_out, unb_out):
         sig_dolp_out[j] = sd if ok else nan
         sig_aolp_out[j] = sa if ok else nan
         unb_out[j] = unb if ok else nan
+
+
+@inline
+def _mirror(i, n):
+    """Index ``i`` of a length-``n`` axis mirrored at its ends with the edge repeated (numpy's
+    ``symmetric`` padding, period ``2 n``)."""
+    j = i % (2 * n)
+    return 2 * n - 1 - j if j >= n else j
+
+
+@parallel_kernel
+def smooth_pass(var, radius, out):
+    """Mean of the finite values of ``var`` (h, w) in the (2r+1)^2 window of each pixel into
+    ``out``; NaN stays NaN.  The same sums in the same order as the numpy reference
+    (:func:`polarsky.estimate.block.smooth_variance`: each window row summed left to right,
+    then the rows top to bottom, from zero), so the results are identical."""
+    h, w = var.shape
+    k = 2 * radius + 1
+    hs = np.empty((h + 2 * radius, w), np.float32)
+    hc = np.empty((h + 2 * radius, w), np.float32)
+    zero = np.float32(0.0)
+    one = np.float32(1.0)
+    for i in prange(h + 2 * radius):
+        row = _mirror(i - radius, h)
+        for x in range(w):
+            interior = x >= radius and x + radius < w
+            acc = zero
+            cnt = zero
+            for dx in range(k):
+                col = x + dx - radius if interior else _mirror(x + dx - radius, w)
+                v = var[row, col]
+                if math.isfinite(v):
+                    acc += v
+                    cnt += one
+                else:
+                    acc += zero
+                    cnt += zero
+            hs[i, x] = acc
+            hc[i, x] = cnt
+    nan = np.float32(np.nan)
+    for y in prange(h):
+        for x in range(w):
+            acc = zero
+            cnt = zero
+            for dy in range(k):
+                acc += hs[y + dy, x]
+                cnt += hc[y + dy, x]
+            out[y, x] = acc / cnt if math.isfinite(var[y, x]) else nan
+
+
+@kernel
+def masked_sums(valid, arrays, out):
+    """``out[j]`` = float64 sum of ``arrays[j]`` (float32, P) over the pixels where ``valid`` (P),
+    in one pass over the pixels (serial: a sum is memory-bound)."""
+    for j in range(len(arrays)):
+        out[j] = 0.0
+    for p in range(valid.shape[0]):
+        if valid[p]:
+            for j in range(len(arrays)):
+                out[j] += np.float64(arrays[j][p])

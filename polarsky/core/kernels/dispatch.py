@@ -5,9 +5,9 @@ from __future__ import annotations
 import numpy as np
 
 from ._generated import SOLVE_PASS
-from .compiled import finish_pass, uncertainty_pass
+from .compiled import finish_pass, masked_sums, smooth_pass, uncertainty_pass
 
-__all__ = ["MAX_FRAMES", "solve_pass", "finish_pass", "uncertainty_pass", "warm"]
+__all__ = ["MAX_FRAMES", "solve_pass", "finish_pass", "uncertainty_pass", "smooth_pass", "masked_sums", "warm"]
 
 #: Largest frame count with a compiled solve pass; more frames use the numpy reference.
 MAX_FRAMES = max(SOLVE_PASS)
@@ -49,3 +49,5 @@ def warm(n_frames: int) -> None:
                    False, s, dolp, aolp, res, var)
     out = [np.zeros(1, f32) for _ in range(3)]
     uncertainty_pass(s, dolp, var, np.zeros(6, f32), *out)
+    smooth_pass(np.zeros((1, 1), f32), 2, np.zeros((1, 1), f32))
+    masked_sums(np.zeros(1, bool), (dolp,) * 6, np.zeros(6))
