@@ -12,6 +12,8 @@ from __future__ import annotations
 import sys
 import time
 
+import numpy as np
+
 from ..core.noise import NoiseModel
 from .block import SMOOTH_RADIUS, estimate, needs_context
 
@@ -120,6 +122,8 @@ def run_blocks(source, noise: NoiseModel, sinks, *, rows: int | None = None, com
     compiled = source.compiled if compiled is None else bool(compiled)
     noise_source = noise.resolved_source(source.n_analyzers)
     needs = _needs(sinks)
+    if needs is not None and {"dolp", "aolp"} & needs:
+        needs = needs | {"dolp", "sigma_dolp"}  # a DoLP handed on is first checked against 1 (mask_impossible)
     context = SMOOTH_RADIUS if noise_source == "residual" and needs_context(needs) else 0
     t_est = t_sink = 0.0
     valid_px = np.zeros(nc, np.int64)
