@@ -40,11 +40,16 @@ def _stokes(paths, out, *extra):
 
 # ---------------------------------------------------------------- physically impossible answers
 
-def test_an_extinction_ratio_of_1_0001_gives_no_dolp_of_thousands(four, tmp_path, capsys):
+@pytest.mark.parametrize("command, match", [
+    ("stokes", "DoLP above 1, which no light has, in 768 of 768 valid pixels"),
+    ("sky", "DoLP above 1, which no light has, in 768 of 768 valid pixels"),
+    ("advise", "region 0,0,8,8 has a DoLP of"),
+])
+def test_an_extinction_ratio_of_1_0001_gives_no_dolp_of_thousands(four, tmp_path, capsys, command, match):
     # D = (ER-1)/(ER+1) = 5e-5 (CONVENTIONS.md): every DoLP would be scaled by 20000
-    code = _stokes(four, tmp_path / "o", "--extinction", "1.0001")
-    _one_error(code, capsys, "DoLP above 1, which no light has, in 768 of 768 valid pixels",
-               "--extinction 1.0001 (diattenuation 5e-05) is lower than the filter's")
+    extra = {"stokes": [], "sky": [*SKY, "--when", "2024-06-21T17:30:00+02:00"], "advise": ["--region", "0,0,8,8"]}
+    code = main([command, *map(str, four), *extra[command], "--extinction", "1.0001", "--out", str(tmp_path / "o")])
+    _one_error(code, capsys, match, "--extinction 1.0001 (diattenuation 5e-05) is lower than the filter's")
     assert not (tmp_path / "o").exists()
 
 
