@@ -68,20 +68,50 @@ def _show_warning(message, category, filename, lineno, file=None, line=None):
     print(f"{prefix}: {one_line(message)}", file=sys.stderr)
 
 
+def _names_as_given() -> list:
+    """Let stdout and stderr print file names that are not UTF-8 as the system gave them
+    (Python holds their bytes as lone surrogates, which strict encoding refuses); returns
+    what to restore."""
+    changed = []
+    for stream in (sys.stdout, sys.stderr):
+        try:
+            old = stream.errors
+            stream.reconfigure(errors="surrogateescape")
+        except (AttributeError, ValueError, TypeError):
+            continue
+        changed.append((stream, old))
+    return changed
+
+
+#: What a run stopped by SIGTERM or Ctrl-C says.
+INTERRUPTED = "error: interrupted (no output folder was left half-written)"
+
+
+class _Stopped(BaseException):
+    """SIGTERM arrived: unwind (staging folders are removed, outputs stay whole).
+
+    Not a KeyboardInterrupt, which click turns into an abort with an empty line first."""
+
+    def __init__(self, signum: int):
+        super().__init__(signum)
+        self.signum = signum
+
+
 def _terminate(signum, frame):
-    raise KeyboardInterrupt
+    raise _Stopped(signum)
 
 
 def main(args=None) -> int:
     """Run the command line with ``args`` (default ``sys.argv[1:]``); return the exit status."""
     old = warnings.showwarning
     warnings.showwarning = _show_warning
-    old_term = None
+    streams = _names_as_given()
+    old_handlers = {}
     if sys.platform != "win32":
-        try:  # SIGTERM cleans up like Ctrl-C: staging folders are removed, outputs stay whole
-            old_term = signal.signal(signal.SIGTERM, _terminate)
+        try:  # SIGTERM cleans up as Ctrl-C does: staging folders are removed, outputs stay whole
+            old_handlers[signal.SIGTERM] = signal.signal(signal.SIGTERM, _terminate)
         except ValueError:  # not the main thread (tests calling main in a worker)
-            old_term = None
+            pass
     try:
         rv = cli.main(args=args, prog_name="polarsky", standalone_mode=False)
         return int(rv or 0)
@@ -98,12 +128,15 @@ def main(args=None) -> int:
         return 2
     except click.exceptions.Exit as exc:
         return int(exc.exit_code)
-    except click.Abort:
+    except click.Abort as exc:
+        if isinstance(exc.__cause__, KeyboardInterrupt):  # Ctrl-C (click has ended the line)
+            print(INTERRUPTED, file=sys.stderr)
+            return 128 + signal.SIGINT
         print("error: aborted", file=sys.stderr)
         return 2
-    except KeyboardInterrupt:
-        print("error: interrupted; nothing was published", file=sys.stderr)
-        return 130
+    except (_Stopped, KeyboardInterrupt) as exc:
+        print(INTERRUPTED, file=sys.stderr)
+        return 128 + getattr(exc, "signum", signal.SIGINT)
     except MemoryError:
         print("error: out of memory; process smaller frames or raise the machine's memory", file=sys.stderr)
         return 2
@@ -118,8 +151,10 @@ def main(args=None) -> int:
         return 1
     finally:
         warnings.showwarning = old
-        if old_term is not None:
-            signal.signal(signal.SIGTERM, old_term)
+        for stream, errors in streams:
+            stream.reconfigure(errors=errors)
+        for sig, handler in old_handlers.items():
+            signal.signal(sig, handler)
 
 
 def entry() -> None:  # pragma: no cover - thin wrapper

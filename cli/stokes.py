@@ -45,6 +45,7 @@ def command(frames, out_dir, as_json, **kw):
     click.echo("mean DoLP: " + ", ".join(f"{k} {v:.3f}" for k, v in summary["mean_dolp"].items() if v is not None))
     if summary.get("median_relative_residual") is not None:
         click.echo(f"fit residual: median {summary['median_relative_residual'] * 100:.2f}% of S0, "
-                   f"99th percentile {summary['p99_relative_residual'] * 100:.2f}% (see residual.png)")
+                   f"99th percentile {summary['p99_relative_residual'] * 100:.2f}%"
+                   + (" (see residual.png)" if "residual.png" in summary["outputs"] else ""))
     click.echo(f"wrote {', '.join(summary['outputs'])} to {out_dir}")
     return 0

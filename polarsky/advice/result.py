@@ -8,6 +8,7 @@ from __future__ import annotations
 
 import numpy as np
 
+from .._shared.checks import dolp_above_one_cause
 from ..errors import InputError
 from .angle import best_angle_for_contrast, best_angle_for_region, transmitted
 
@@ -21,6 +22,10 @@ ADVICE_KEYS = ("software_version", "best_angle_deg", "reduction_stops", "reducti
                "analyzer_angles_deg", "angle_offset_deg", "calibration", "ring_offset_deg", "ring_offset_sigma_deg",
                "best_ring_reading_deg", "surface_estimate", "inputs", "shifts_px", "polarizer", "angle_convention",
                "warnings", "outputs")
+
+#: A region's DoLP (of its summed Stokes vector) above this is refused; up to it, the excess
+#: over 1 is taken as noise.
+REGION_DOLP_LIMIT = 1.01
 
 ANGLE_CONVENTION_NOTE = ("degrees counter-clockwise from the image +x axis as displayed, in the frame of the input "
                          "analyzer angles (ring readings stay ring readings)")
@@ -63,6 +68,12 @@ def advice_result(sums: dict, counts: dict, *, region, protect=None, extinction=
     if counts["region"] == 0:
         raise InputError(f"region {region.text} holds no valid pixels (all saturated, black or outside); choose another region")
     d = 1.0 if extinction is None else diattenuation_from_extinction(extinction)
+    for key, reg in (("region", region), ("protect", protect)):
+        s = np.asarray(sums.get(key, (1.0, 0.0, 0.0)), dtype=np.float64)
+        if s[0] > 0 and np.hypot(s[1], s[2]) > REGION_DOLP_LIMIT * s[0]:
+            raise InputError(f"{'region' if key == 'region' else 'protected region'} {reg.text} has a DoLP of "
+                             f"{np.hypot(s[1], s[2]) / s[0]:.3f}, above 1, which no light has: the filter model does "
+                             f"not fit these frames; {dolp_above_one_cause(extinction, calibration)}")
     result = best_angle_for_region(sums["region"], diattenuation=d)
     result["extinction_ratio"] = extinction
     result["region"] = region.text

@@ -32,6 +32,8 @@ key means what the option of the same name means on the command line, with the s
 
 Every table and key is checked when the file is read, before any bracket is processed; a
 bad one raises :class:`~polarsky.errors.InputError` naming the file, the table and the key.
+With a sky comparison, the lens settings and (when time and place are given) the sun's
+elevation are checked then too, so a batch set for the night stops before its first bracket.
 """
 
 from __future__ import annotations
@@ -47,6 +49,10 @@ __all__ = ["BATCH_GROUPS", "load_settings", "sky_requested"]
 #: Settings groups a batch file may hold (one TOML table each).
 BATCH_GROUPS = ("read", "mosaic", "estimate", "output", "advise", "geometry", "sky", "discovery", "report",
                 "cluster")
+
+
+#: Settings of the table that describe one bracket, not a batch: why they are refused in a batch file.
+NOT_IN_BATCH = {"manifest": "each bracket folder holds its own manifest.csv, which discovery reads; remove the key"}
 
 
 def load_settings(path=None, *, overrides=None) -> tuple:
@@ -73,15 +79,35 @@ def load_settings(path=None, *, overrides=None) -> tuple:
             if table not in BATCH_GROUPS or not isinstance(values, dict):
                 raise InputError(f"{path}: [{table}] is not a batch settings table; the tables are "
                                  f"{', '.join(f'[{t}]' for t in BATCH_GROUPS)}")
-            known = option_names(table)
+            known = [k for k in option_names(table) if k not in NOT_IN_BATCH]
             for key in values:
+                if key in NOT_IN_BATCH:
+                    raise InputError(f"{path} [{table}]: {key} cannot be set for a whole batch; {NOT_IN_BATCH[key]}")
                 if key not in known:
                     raise InputError(f"{path} [{table}]: unknown key {key!r}; [{table}] holds {', '.join(known)}")
             settings = settings.replace(values, base=path.parent, where=f"{path} [{table}]")
             tables.add(table)
     if overrides:
         settings = settings.replace({k: v for k, v in overrides.items() if v not in (None, ())}, where="")
+    if sky_requested(tables):
+        from ..tasks.sky import check_sky_settings
+
+        try:
+            check_sky_settings(settings)
+        except InputError as exc:
+            raise InputError(f"{path} [geometry]: {_as_keys(str(exc))}") from None
     return settings, tables
+
+
+def _as_keys(message: str) -> str:
+    """A message of the shared checks with its options written as the keys of a batch file
+    (``--fov-deg`` -> ``fov_deg``)."""
+    import re
+
+    names = set(option_names())
+    return re.sub(r"--([a-z][a-z0-9-]*)",
+                  lambda m: m.group(1).replace("-", "_") if m.group(1).replace("-", "_") in names else m.group(0),
+                  message)
 
 
 def sky_requested(tables) -> bool:

@@ -37,6 +37,7 @@ import re
 from dataclasses import dataclass
 from pathlib import Path
 
+from .._shared.checks import path_problem
 from ..errors import InputError
 from ..read.exif import read_metadata
 from ..read.formats import FRAME_SUFFIXES, MOSAIC_SUFFIXES
@@ -198,8 +199,10 @@ def discover_brackets(root, *, time_gap_s: float = 10.0, angles_deg=None, exclud
 
     Notes
     -----
-    Folders that are symbolic links are followed (each real folder once); hidden folders
-    (names starting with ``.``) are not searched.
+    Folders that are symbolic links are followed (each real folder once, so a link back to a
+    folder above does not loop); hidden folders (names starting with ``.``) are not searched.
+    A symbolic link that leads nowhere (dangling or looping) and a folder that cannot be read
+    become failed brackets that say so, never silently skipped.
     """
     root = Path(root)
     if not root.is_dir():
@@ -221,7 +224,8 @@ def discover_brackets(root, *, time_gap_s: float = 10.0, angles_deg=None, exclud
         used.add(name.lower())
         return name
 
-    for dirpath, dirnames, filenames in os.walk(root_abs, followlinks=True):
+    unreadable: list = []
+    for dirpath, dirnames, filenames in os.walk(root_abs, followlinks=True, onerror=unreadable.append):
         here = Path(dirpath)
         real = here.resolve()
         if real in seen or real in excluded or _is_output_folder(here):
@@ -233,6 +237,12 @@ def discover_brackets(root, *, time_gap_s: float = 10.0, angles_deg=None, exclud
         rel_parts = rel.parts if rel.parts else (root_abs.name,)
         label_dir = rel.as_posix() if rel.parts else "."
         filenames = sorted(filenames)
+        for f in filenames:
+            problem = None if f.startswith(".") or not os.path.islink(here / f) else path_problem(here / f)
+            if problem is not None:  # a link that leads nowhere: say so instead of skipping it
+                found.append(Bracket(name=unique(rel_parts + (f,)), label=f"{label_dir}/{f}", frames=(),
+                                     angles_deg=None, manifest=None, rule="none", reason="a symbolic link in the tree",
+                                     problem=f"{f} {problem}; fix or remove the link"))
         if MANIFEST_NAME in filenames:
             dirnames[:] = []
             mpath = here / MANIFEST_NAME
@@ -289,14 +299,23 @@ def discover_brackets(root, *, time_gap_s: float = 10.0, angles_deg=None, exclud
                 problem=(f"cannot group {', '.join(f.name for f in frames[:5])}"
                          + (" ..." if len(frames) > 5 else "")
                          + ": name the frames <stem>_<angle>deg, add a manifest.csv, or keep EXIF times")))
+    for exc in unreadable:
+        where = Path(exc.filename) if exc.filename else root_abs
+        rel = where.relative_to(root_abs) if where.is_relative_to(root_abs) else where
+        found.append(Bracket(name=unique(rel.parts or (root_abs.name,)), label=rel.as_posix(), frames=(),
+                             angles_deg=None, manifest=None, rule="none", reason="a folder of the tree",
+                             problem=f"folder {rel.as_posix()} cannot be read ({exc.strerror}); its frames were not "
+                                     "searched"))
     return found
 
 
 def _is_output_folder(folder: Path) -> bool:
-    """A bracket folder a batch wrote (it holds a batch.json marker): never searched for frames."""
+    """A folder polarsky wrote (a batch's bracket folder with its batch.json, or a command's
+    output folder with its marker): never searched for frames."""
+    from ..write.stage import MARKER
     from .state import read_marker
 
-    return read_marker(folder) is not None
+    return read_marker(folder) is not None or (folder / MARKER).is_file()
 
 
 def _angle_problem(angles, names) -> str | None:

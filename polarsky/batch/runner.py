@@ -155,6 +155,7 @@ def run_batch(root, out_dir, *, settings, sky: bool = False, client=None, progre
         ``failed``, the paths ``summary_csv`` and ``report_html``, and ``elapsed_s``.
     """
     from ..write.stage import FolderLock
+    from ..write.swap import clean_leftovers_in
 
     t0 = time.perf_counter()
     root = Path(root)
@@ -174,6 +175,7 @@ def run_batch(root, out_dir, *, settings, sky: bool = False, client=None, progre
     cl = settings.cluster
     with FolderLock(out_dir):
         shutil.rmtree(out_dir / state.TMP_DIR, ignore_errors=True)  # leftovers of a killed run
+        clean_leftovers_in(out_dir)  # and bracket folders it was replacing
         if brackets:
             tasks = [{"bracket": b, "out_dir": str(out_dir), "settings": settings, "sky": sky, "run_id": run_id}
                      for b in brackets]
@@ -263,7 +265,8 @@ def _gather(client, tasks, run_id, progress) -> dict[int, dict]:
             try:
                 got = f.result()
             except Exception as exc:  # the task itself died (e.g. its worker was killed repeatedly)
-                got = [make_row(tasks[i]["bracket"], status="failed", error=one_line(f"the task died: {exc}"))
+                why = one_line(str(exc)) or type(exc).__name__
+                got = [make_row(tasks[i]["bracket"], status="failed", error=f"the task died ({why}); please report it")
                        for i in idx]
             for i, row in zip(idx, got):
                 rows[i] = row

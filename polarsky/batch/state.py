@@ -50,10 +50,10 @@ def bracket_key(input_files, settings: dict, version: str) -> str:
     """
     h = hashlib.sha256()
     h.update(f"polarsky {version}\n".encode())
-    h.update(json.dumps(settings, sort_keys=True, default=str).encode())
+    h.update(json.dumps(settings, sort_keys=True, default=str).encode())  # ASCII: JSON escapes the rest
     for f in input_files:
         f = Path(f)
-        h.update(f"\n{f.name}\n".encode())
+        h.update(f"\n{f.name}\n".encode("utf-8", "surrogateescape"))
         if f.is_file():
             h.update(f"{f.stat().st_size}:{file_sha256(f)}".encode())
         else:
@@ -106,9 +106,14 @@ def publish(tmp_folder, final_folder) -> None:
 
 
 def atomic_write_text(path, text: str) -> None:
-    """Write ``text`` to ``path`` through a temporary name and :func:`os.replace`."""
+    """Write ``text`` to ``path`` as UTF-8 through a temporary name and :func:`os.replace`.
+
+    Bytes of file names that are not UTF-8 (which Python carries as lone surrogates) are
+    written as U+FFFD, so the file stays valid UTF-8.
+    """
     path = Path(path)
     tmp = path.with_name(f".{path.name}.{os.getpid()}.{uuid.uuid4().hex[:8]}.tmp")
+    text = text.encode("utf-8", "surrogateescape").decode("utf-8", "replace")
     try:
         with open(tmp, "w", encoding="utf-8", newline="") as fh:
             fh.write(text)

@@ -31,12 +31,20 @@ SUMMARY_COLUMNS = [
 ]
 
 
+def _shown(value):
+    """Text for the summary: bytes of file names that are not UTF-8 become U+FFFD (the row
+    travels between processes and into UTF-8 files, which refuse them)."""
+    if isinstance(value, str):
+        return value.encode("utf-8", "surrogateescape").decode("utf-8", "replace")
+    return value
+
+
 def make_row(bracket: Bracket, **values) -> dict:
     row = {c: "" for c in SUMMARY_COLUMNS}
     row.update(name=bracket.name, frames=len(bracket.frames), source=bracket.label, rule=bracket.rule,
                analyzer_angles_deg=format_angle_list(bracket.angles_deg) if bracket.angles_deg else "")
     row.update({k: v for k, v in values.items() if v is not None})
-    return row
+    return {k: _shown(v) for k, v in row.items()}
 
 
 def bracket_settings(settings, bracket: Bracket):
@@ -73,8 +81,12 @@ def _input_files(bracket: Bracket, settings):
 
 
 def _reason(exc: BaseException) -> str:
+    """The one-line reason of a failed row (never a traceback, never a staging folder's name)."""
     if isinstance(exc, InputError):
         return str(exc)
+    if isinstance(exc, OSError):
+        name = f" {Path(exc.filename).name}" if exc.filename else ""
+        return one_line(f"cannot read or write{name} ({exc.strerror or type(exc).__name__})")
     return one_line(f"internal error ({type(exc).__name__}: {exc}); please report it")
 
 
@@ -138,7 +150,7 @@ def _run(bracket: Bracket, settings, tmp: Path, *, sky: bool, t0: float) -> dict
     from .report import make_thumbnails
 
     frames = [str(f) for f in bracket.frames]
-    dest = Into(tmp)
+    dest = Into(tmp, shown_as=tmp.parent.parent / bracket.name)
     with collect_warnings(reemit=False) as caught:
         summary = run_stokes(frames, dest, settings)
         values = {"mean_dolp": _mean(summary["mean_dolp"])}
@@ -151,8 +163,14 @@ def _run(bracket: Bracket, settings, tmp: Path, *, sky: bool, t0: float) -> dict
         if sky:
             from ..tasks.sky import run_sky
 
-            # a mosaic's sky step reads its Stokes result; a bracket's reads its frames
-            result = run_sky([str(tmp / "stokes.nc")] if bracket.rule == "mosaic" else frames, dest, settings)
+            # a mosaic's sky step reads its Stokes result (its frame still gives the EXIF and the inputs named);
+            # a bracket's reads its frames
+            stokes = None
+            if bracket.rule == "mosaic":
+                from ..read.stokes_file import read_stokes
+
+                stokes = read_stokes(tmp / "stokes.nc")
+            result = run_sky(frames, dest, settings, stokes=stokes)
             values["rms_dolp_residual"] = result["rms_dolp_residual"]
             values["rms_aolp_residual_deg"] = result["rms_aolp_residual_deg"]
         make_thumbnails(tmp, frames, px=settings.report.thumbnail_px, best_angle_deg=values.get("best_angle_deg"))

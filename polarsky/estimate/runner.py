@@ -12,10 +12,13 @@ from __future__ import annotations
 import sys
 import time
 
+import numpy as np
+
 from ..core.noise import NoiseModel
 from .block import SMOOTH_RADIUS, estimate, needs_context
 
-__all__ = ["run_blocks", "block_rows", "use_compiled", "BLOCK_VALUES", "COMPILED_MIN_VALUES"]
+__all__ = ["run_blocks", "block_rows", "use_compiled", "mask_impossible", "BLOCK_VALUES", "COMPILED_MIN_VALUES",
+           "IMPOSSIBLE_SIGMAS"]
 
 #: Target number of float32 values per analyzer in one row block.
 BLOCK_VALUES = 1 << 20
@@ -28,6 +31,46 @@ COMPILED_MIN_VALUES = 4_000_000
 def use_compiled(n_values: int) -> bool:
     """Whether an input of ``n_values`` values is large enough for the compiled kernels."""
     return int(n_values) >= COMPILED_MIN_VALUES
+
+
+#: A DoLP above 1 by more than this many of its standard uncertainties is impossible (no light
+#: is more than fully polarized), not noise.
+IMPOSSIBLE_SIGMAS = 3.0
+
+
+def mask_impossible(products: dict):
+    """Mark valid pixels whose DoLP exceeds 1 beyond their uncertainty as not valid (in place).
+
+    Where the sinks did not ask for DoLP and its uncertainty (a region's Stokes sums), only the
+    valid pixels are counted; the advice checks the region's DoLP instead.
+
+    Returns
+    -------
+    valid : ndarray (C,), int
+        Valid pixels per channel after masking.
+    impossible : ndarray (C,), int
+        Pixels masked per channel.
+    largest : float
+        The largest DoLP among them (0 when none).
+    """
+    valid = products["valid"]
+    c = valid.shape[0]
+    impossible = np.zeros(c, np.int64)
+    largest = 0.0
+    if "dolp" not in products or "sigma_dolp" not in products:  # sinks that read Stokes sums only
+        return valid.reshape(c, -1).sum(axis=1), impossible, largest
+    dolp = products["dolp"]
+    over = dolp > 1.0  # NaN compares False: invalid pixels are never counted
+    if over.any():
+        bad = over & valid & ~(dolp <= 1.0 + np.float32(IMPOSSIBLE_SIGMAS) * products["sigma_dolp"])
+        if bad.any():
+            impossible = bad.reshape(c, -1).sum(axis=1)
+            largest = float(dolp[bad].max())
+            valid &= ~bad
+            for name, arr in products.items():
+                if name != "valid" and arr.dtype.kind == "f":
+                    arr[bad] = np.nan
+    return valid.reshape(c, -1).sum(axis=1), impossible, largest
 
 
 def block_rows(shape, n_channels: int) -> int:
@@ -69,7 +112,9 @@ def run_blocks(source, noise: NoiseModel, sinks, *, rows: int | None = None, com
     Returns
     -------
     dict
-        ``estimate_s`` and ``sinks_s`` (seconds), ``compiled`` and ``noise_source``.
+        ``estimate_s`` and ``sinks_s`` (seconds), ``compiled``, ``noise_source``, and per
+        channel ``valid_px`` (valid pixels) and ``impossible_px`` (pixels whose DoLP was above
+        1 beyond its uncertainty: masked, see :func:`mask_impossible`) with ``largest_dolp``.
     """
     h = source.shape[0]
     nc = len(source.channels)
@@ -77,8 +122,13 @@ def run_blocks(source, noise: NoiseModel, sinks, *, rows: int | None = None, com
     compiled = source.compiled if compiled is None else bool(compiled)
     noise_source = noise.resolved_source(source.n_analyzers)
     needs = _needs(sinks)
+    if needs is not None and {"dolp", "aolp"} & needs:
+        needs = needs | {"dolp", "sigma_dolp"}  # a DoLP handed on is first checked against 1 (mask_impossible)
     context = SMOOTH_RADIUS if noise_source == "residual" and needs_context(needs) else 0
     t_est = t_sink = 0.0
+    valid_px = np.zeros(nc, np.int64)
+    impossible_px = np.zeros(nc, np.int64)
+    largest = 0.0
     bar = None
     if progress and sys.stderr.isatty():
         from tqdm import tqdm
@@ -95,6 +145,10 @@ def run_blocks(source, noise: NoiseModel, sinks, *, rows: int | None = None, com
             if (a, b) != (0, e1 - e0):
                 products = {k: v[:, a:b] for k, v in products.items()}
                 frame0 = None if frame0 is None else frame0[:, a:b]
+            n_valid, n_bad, top = mask_impossible(products)
+            valid_px += n_valid
+            impossible_px += n_bad
+            largest = max(largest, top)
             t2 = time.perf_counter()
             for sink in sinks:
                 sink.write(r0, r1, products, frame0)
@@ -105,4 +159,6 @@ def run_blocks(source, noise: NoiseModel, sinks, *, rows: int | None = None, com
     finally:
         if bar is not None:
             bar.close()
-    return {"estimate_s": t_est, "sinks_s": t_sink, "compiled": compiled, "noise_source": noise_source}
+    return {"estimate_s": t_est, "sinks_s": t_sink, "compiled": compiled, "noise_source": noise_source,
+            "valid_px": valid_px.tolist(), "impossible_px": impossible_px.tolist(), "largest_dolp": largest,
+            "pixels": int(source.shape[0] * source.shape[1])}

@@ -36,11 +36,14 @@ References
 
 from __future__ import annotations
 
+import hashlib
 import warnings
 from dataclasses import dataclass, field
+from pathlib import Path
 
 import numpy as np
 
+from .._shared.checks import check_distinct_files
 from ..core.stokes import check_angles
 from ..conventions import SATURATION_FRACTION
 from ..errors import InputError, PolarskyWarning
@@ -176,20 +179,31 @@ def fit_flat_files(frames, angles_deg, *, mosaic, mosaic_colour=None, dark=(), b
     if not frames:
         raise InputError("no calibration frames given; give one FRAME per reference-polarizer angle")
     _check_bench_angles(angles_deg, len(frames))
+    check_distinct_files(frames, angles_deg)
     dark_mean = None
     for i, d in enumerate(dark or ()):
         v, _, _ = read_mosaic_frame(d, bit_depth=bit_depth, black_level=black_level, transfer=transfer,
                                     hint_bit_depth=False)
+        if dark_mean is not None and v.shape != dark_mean.shape:
+            raise InputError(f"dark frame {d} is {v.shape[1]}x{v.shape[0]} pixels but {dark[0]} is "
+                             f"{dark_mean.shape[1]}x{dark_mean.shape[0]}; give dark frames of the same sensor")
         dark_mean = v.astype(np.float64) if dark_mean is None else dark_mean + v
     if dark_mean is not None:
         dark_mean /= len(dark)
     invalid = None
     n_sat = 0
+    digests: dict = {}
 
     def gen():
         nonlocal invalid, n_sat
-        for f in frames:
+        for k, f in enumerate(frames):
             v, inv, info = read_mosaic_frame(f, bit_depth=bit_depth, black_level=black_level, transfer=transfer)
+            ref = invalid if invalid is not None else dark_mean
+            if ref is not None and v.shape != ref.shape:
+                other = frames[0] if invalid is not None else f"the dark frame {dark[0]}"
+                raise InputError(f"bench frame {f} is {v.shape[1]}x{v.shape[0]} pixels but {other} is "
+                                 f"{ref.shape[1]}x{ref.shape[0]}; give frames of one sensor")
+            _warn_identical(digests, hashlib.sha1(v.tobytes()).hexdigest(), f, angles_deg[k])
             sat = v >= SATURATION_FRACTION
             n_sat += int(sat.sum())
             invalid = sat if invalid is None else (invalid | sat)
@@ -203,6 +217,15 @@ def fit_flat_files(frames, angles_deg, *, mosaic, mosaic_colour=None, dark=(), b
                       "unusable; lower the exposure", PolarskyWarning, stacklevel=2)
     fit.info.update(n_dark=len(dark or ()), files=[str(f) for f in frames], dark_files=[str(d) for d in dark or ()])
     return fit
+
+
+def _warn_identical(digests: dict, digest: str, f, angle) -> None:
+    """Warn when a bench frame holds the very same values as one at another angle."""
+    other = digests.setdefault(digest, (f, angle))
+    if other[0] != f and (float(other[1]) - float(angle)) % 180.0 != 0.0:
+        warnings.warn(f"bench frames {Path(other[0]).name} and {Path(f).name} hold identical values although their "
+                      f"angles differ ({float(other[1]):g} and {float(angle):g} deg); if one picture was saved twice, "
+                      "the calibration is wrong", PolarskyWarning, stacklevel=4)
 
 
 class _LazyFrames:

@@ -141,7 +141,8 @@ def bayer_cell_colours(order: str) -> np.ndarray:
 
 
 def check_frame_shape(shape, layout: MosaicLayout, source="frame") -> None:
-    """Raise :class:`InputError` unless the frame's height and width are multiples of the cell."""
+    """Raise :class:`InputError` unless the frame's height and width are multiples of the cell
+    (and at least two cells a side)."""
     if len(shape) != 2:
         raise InputError(
             f"{source} has shape {tuple(shape)}; a mosaic frame must be a single-channel (mono) "
@@ -149,9 +150,14 @@ def check_frame_shape(shape, layout: MosaicLayout, source="frame") -> None:
         )
     h, w = shape
     c = layout.cell
-    if h % c or w % c or h < 2 * c or w < 2 * c:
-        kind = "colour mosaic (4x4 pixel pattern)" if layout.colour else "mosaic (2x2 cell)"
+    kind = "colour mosaic (4x4 pixel pattern)" if layout.colour else "mosaic (2x2 cell)"
+    if h % c or w % c:
         raise InputError(
             f"{source} is {w}x{h} pixels, not a multiple of the {c}x{c} {kind}; "
             f"crop it to a multiple of {c} pixels starting at the first cell's top-left pixel"
+        )
+    if h < 2 * c or w < 2 * c:
+        raise InputError(
+            f"{source} is {w}x{h} pixels, too small to decode: a {kind} needs at least {2 * c}x{2 * c} pixels "
+            "(two patterns a side); give the whole sensor frame"
         )

@@ -10,7 +10,7 @@ from __future__ import annotations
 
 from pathlib import Path
 
-from .._shared.checks import check_positive, check_range, parse_number
+from .._shared.checks import check_positive, check_range, number_text, parse_number
 from ..errors import InputError
 from .. import registries
 from . import syntax
@@ -45,21 +45,21 @@ def positive(value, what, base=None, spec=None):
 def non_negative(value, what, base=None, spec=None):
     v = _num(value, what)
     if v < 0:
-        raise InputError(f"{what} must be at least 0, got {value!r}")
+        raise InputError(f"{what} must be at least 0, got {number_text(v)}")
     return v
 
 
 def fraction(value, what, base=None, spec=None):
     v = _num(value, what)
     if not 0 < v <= 1:
-        raise InputError(f"{what} must lie in (0, 1], got {value!r}")
+        raise InputError(f"{what} must lie in (0, 1], got {number_text(v)}")
     return v
 
 
 def positive_int(value, what, base=None, spec=None):
     v = _num(value, what)
     if v != int(v) or v < 1:
-        raise InputError(f"{what} must be a whole number of at least 1, got {value!r}")
+        raise InputError(f"{what} must be a whole number of at least 1, got {number_text(v)}")
     return int(v)
 
 
@@ -165,29 +165,29 @@ def temperature(value, what, base=None, spec=None):
 def neutral_point(value, what, base=None, spec=None):
     v = _num(value, what)
     if not 0 <= v < 60:
-        raise InputError(f"{what} {value!r} must lie in [0, 60) degrees")
+        raise InputError(f"{what} {number_text(v)} must lie in [0, 60) degrees")
     return v
 
 
 def sun_mask(value, what, base=None, spec=None):
     v = _num(value, what)
     if not 0 <= v < 90:
-        raise InputError(f"{what} {value!r} must lie in [0, 90) degrees")
+        raise InputError(f"{what} {number_text(v)} must lie in [0, 90) degrees")
     return v
 
 
 def extinction(value, what, base=None, spec=None):
     v = _num(value, what)
     if not v > 1:
-        raise InputError(f"{what} {value!r} is the extinction ratio Tmax/Tmin and must be a finite number above 1 "
-                         "(leave it out for an ideal filter)")
+        raise InputError(f"{what} {number_text(v)} is the extinction ratio Tmax/Tmin and must be a finite number "
+                         "above 1 (leave it out for an ideal filter)")
     return v
 
 
 def bit_depth(value, what, base=None, spec=None):
     v = positive_int(value, what)
     if not 8 <= v <= 32:
-        raise InputError(f"{what} {value!r} must be a whole number of bits from 8 to 32")
+        raise InputError(f"{what} {number_text(v)} must be a whole number of bits from 8 to 32")
     return v
 
 
@@ -262,7 +262,9 @@ def poses(value, what, base=None, spec=None):
 def region(value, what, base=None, spec=None):
     from ..read.masks import parse_region
 
-    return _in_file(what, lambda: parse_region(value, option=spec["flag"] if spec else what, base=base))
+    # a settings file's value is named by its file, table and key; the command line's by its flag
+    option = spec["flag"] if spec and what.startswith("--") else what
+    return parse_region(value, option=option, base=base)
 
 
 def embed(value, what, base=None, spec=None):

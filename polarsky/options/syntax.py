@@ -60,9 +60,11 @@ def parse_angle_list(value, what: str = "--angles") -> tuple:
             a, b, step = (parse_number(p, f"{what} item {item!r}") for p in parts)
             if not step > 0:
                 raise InputError(f"{what} range {item!r} needs a step above 0")
-            count = math.ceil((b - a) / step - 1e-9)
+            span = (b - a) / step
+            count = math.ceil(span - 1e-9) if math.isfinite(span) else math.inf
             if count > MAX_LIST_ITEMS:
-                raise InputError(f"{what} range {item!r} expands to {count} angles, more than {MAX_LIST_ITEMS}; "
+                many = f"{count}" if count < 1e15 else "too many"
+                raise InputError(f"{what} range {item!r} expands to {many} angles, more than {MAX_LIST_ITEMS}; "
                                  "give a larger step")
             out.extend(float(a + k * step) for k in range(max(count, 0)))
         else:

@@ -16,12 +16,14 @@ to frame while the sensor and the filter stayed put, so frames are never turned 
 
 from __future__ import annotations
 
+import os
 import warnings
 from dataclasses import dataclass, field
 from pathlib import Path
 
 import numpy as np
 
+from .._shared.checks import check_distinct_files
 from ..conventions import SATURATION_FRACTION, SRGB_NOTE
 from ..core.stokes import check_angles
 from ..core.transfer import srgb_lut, srgb_to_linear
@@ -194,13 +196,13 @@ def bracket_files(frames=(), read=None):
         man = read_manifest(read.manifest)
         m_files, m_angles, m_exp = list(man.files), list(man.angles_deg), list(man.exposures_s)
         if files:
-            lookup = {p.resolve(): i for i, p in enumerate(m_files)}
+            lookup = {os.path.realpath(p): i for i, p in enumerate(m_files)}
             order = []
             for f in files:
-                if f.resolve() not in lookup:
+                if os.path.realpath(f) not in lookup:
                     raise InputError(f"frame {f} is not listed in manifest {read.manifest}; add it or leave the frames "
                                      "out to use the manifest's list")
-                order.append(lookup[f.resolve()])
+                order.append(lookup[os.path.realpath(f)])
             m_files = [m_files[i] for i in order]
             m_angles = [m_angles[i] for i in order]
             m_exp = [m_exp[i] for i in order]
@@ -248,6 +250,7 @@ def load_bracket(frames=(), read=None) -> Bracket:
     if len(files) < 3:
         raise InputError(f"{len(files)} frame(s) given; a linear Stokes estimate needs at least 3 frames at distinct "
                          "analyzer angles")
+    check_distinct_files(files, angles)
     angles = np.asarray(angles, dtype=np.float64)
     check_angles(angles)
     if read.response is not None and read.transfer != "auto":

@@ -55,7 +55,10 @@ def file_in_folder(path, file_name: str, *, what: str, maker: str) -> Path:
     if p.is_dir():
         p = p / file_name
     if not p.is_file():
-        raise InputError(f"{what} {path} does not exist; give the {file_name} (or the folder) written by '{maker}'")
+        from .._shared.checks import path_problem
+
+        raise InputError(f"{what} {path} {path_problem(p) or 'is not a file'}; give the {file_name} (or the folder) "
+                         f"written by '{maker}'")
     return p
 
 

@@ -20,6 +20,7 @@ from pathlib import Path
 
 import numpy as np
 
+from .._shared.checks import path_problem
 from ..conventions import DEFAULT_MAX_PIXELS, TRANSFERS
 from ..errors import InputError
 from .exif import read_metadata, relative_exposure
@@ -73,8 +74,9 @@ class Frame:
 
 
 def _check_path(path: Path, what: str) -> None:
-    if not path.exists():
-        raise InputError(f"{what} {path} does not exist; check the path")
+    problem = path_problem(path)
+    if problem is not None:
+        raise InputError(f"{what} {path} {problem}; check the path")
     if not path.is_file():
         raise InputError(f"{what} {path} is not a file")
 
@@ -225,6 +227,8 @@ def decode_image(path: Path, *, what: str = "frame", info: dict | None = None) -
             raise InputError(f"{what} {path} has an unsupported type {suffix or '(none)'!r}; give PNG, TIFF or JPEG")
     except InputError:
         raise
+    except PermissionError as exc:
+        raise InputError(f"{what} {path} cannot be read ({exc.strerror}); check its permissions") from None
     except Exception as exc:  # noqa: BLE001 - every decoder failure means a bad file
         raise InputError(f"{what} {path} cannot be decoded ({type(exc).__name__}); it may be truncated or not an "
                          "image") from None

@@ -2,7 +2,10 @@
 
 Columns ``file`` and ``angle_deg`` (and optionally ``exposure_s``), one row per frame; the
 header's case and spaces do not matter (``File, Angle_deg`` works); file names are relative
-to the manifest's folder; empty lines are skipped.
+to the manifest's folder; empty lines are skipped.  Numbers are plain decimals: a Unicode
+minus and a decimal comma in a quoted field (``"22,5"``) are read; underscores, exponents in
+angles, ``nan``, ``inf`` and a comma that could separate thousands (``"1,350"``) are refused
+naming the file and line.
 """
 
 from __future__ import annotations
@@ -11,7 +14,7 @@ import csv
 from dataclasses import dataclass
 from pathlib import Path
 
-from .._shared.checks import parse_number
+from .._shared.checks import parse_number, path_problem
 from ..errors import InputError
 
 __all__ = ["Manifest", "read_manifest", "MANIFEST_NAME", "MANIFEST_HELP"]
@@ -59,7 +62,8 @@ def read_manifest(path, *, check_files: bool = True) -> Manifest:
     """
     path = Path(path)
     if not path.is_file():
-        raise InputError(f"manifest {path} does not exist; give {MANIFEST_HELP}")
+        problem = path_problem(path) or "is not a file"
+        raise InputError(f"manifest {path} {problem}; give {MANIFEST_HELP}")
     try:
         with open(path, newline="", encoding="utf-8-sig") as fh:
             rows = list(csv.reader(fh))
@@ -89,11 +93,16 @@ def read_manifest(path, *, check_files: bool = True) -> Manifest:
             raise InputError(f"manifest {path} line {line} names no file")
         f = path.parent / name
         if check_files and not f.is_file():
-            raise InputError(f"manifest {path} line {line} names {name!r}, which does not exist next to the manifest")
-        angles.append(parse_number(row[col["angle_deg"]], f"manifest {path} line {line}: angle_deg"))
+            problem = path_problem(f) or "is not a file"
+            if problem == "does not exist":
+                problem += " next to the manifest"
+            raise InputError(f"manifest {path} line {line} names {name!r}, which {problem}")
+        angles.append(parse_number(row[col["angle_deg"]], f"manifest {path} line {line}: angle_deg",
+                                   decimal_comma=True))
         e = None
         if "exposure_s" in col and row[col["exposure_s"]]:
-            e = parse_number(row[col["exposure_s"]], f"manifest {path} line {line}: exposure_s", allow_exponent=True)
+            e = parse_number(row[col["exposure_s"]], f"manifest {path} line {line}: exposure_s", allow_exponent=True,
+                             decimal_comma=True)
             if not e > 0:
                 raise InputError(f"manifest {path} line {line}: exposure_s must be positive, got {e:g}")
         files.append(f)

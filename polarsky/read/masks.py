@@ -14,6 +14,7 @@ from pathlib import Path
 
 import numpy as np
 
+from .._shared.checks import path_problem
 from ..errors import InputError
 
 __all__ = ["Region", "parse_region", "read_mask_image", "BOX_HELP"]
@@ -94,6 +95,9 @@ def parse_region(value, *, option: str = "--region", base: Path | None = None) -
     if base is not None and not p.is_absolute():
         p = base / p
     if not p.is_file():
+        problem = path_problem(p)
+        if problem not in (None, "does not exist"):
+            raise InputError(f"{option} mask {p} {problem}; give {BOX_HELP}")
         raise InputError(f"{option} {text!r} is neither {BOX_HELP.replace(' or a', ' nor an existing')}")
     return Region(text=str(p) if base is not None else text, option=option, path=p)
 

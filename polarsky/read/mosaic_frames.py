@@ -18,6 +18,7 @@ from pathlib import Path
 
 import numpy as np
 
+from .._shared.checks import path_problem
 from ..conventions import SATURATION_FRACTION, SRGB_NOTE, TRANSFERS
 from ..core.transfer import srgb_to_linear
 from ..errors import InputError, PolarskyWarning
@@ -129,7 +130,7 @@ def read_mosaic_frame(path, *, bit_depth=None, black_level=None, transfer="auto"
     """
     path = Path(path)
     if not path.is_file():
-        raise InputError(f"mosaic frame {path} does not exist; check the path")
+        raise InputError(f"mosaic frame {path} {path_problem(path) or 'is not a file'}; check the path")
     counts, black_px, white, kind = _read_counts(path)
     container = 8 if counts.dtype.itemsize == 1 else 16
     shift = 0

@@ -8,7 +8,8 @@ Unicode minus).  The rest of the name is the bracket's *stem* (``pier``), which 
 frames of a bracket in a batch.
 
 Names that cannot be read one way only are refused with a message naming the file: two
-tokens, an exponent (``1.35e2deg``), a second decimal mark (``1.5.5deg``).  An underscore
+tokens, an exponent (``1.35e2deg``), a second decimal mark (``1.5.5deg``), a comma that could
+separate thousands (``1,350deg``).  An underscore
 always separates words: ``shot_2_45deg.png`` is bracket ``shot_2`` at 45 deg.
 """
 
@@ -41,6 +42,9 @@ def _tokens(stem: str, name: str):
         if start >= 1 and stem[start - 1] in ".,":
             raise InputError(f"file name {name!r} has an angle with two decimal marks ({m.group(0)!r}); "
                              "write one number, e.g. 22.5deg")
+        if re.fullmatch(r"\d{1,3},\d{3}", m.group("num")):
+            raise InputError(f"file name {name!r} has an angle that reads two ways ({m.group(0)!r}: a decimal comma or "
+                             "a thousands separator); write it with a decimal point, e.g. 1.35deg")
         value = float(m.group("num").replace(",", "."))
         if sign in ("-", "\u2212"):
             value = -value

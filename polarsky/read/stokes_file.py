@@ -11,6 +11,7 @@ from pathlib import Path
 
 import numpy as np
 
+from .._shared.checks import path_problem
 from ..errors import InputError
 
 __all__ = ["open_stokes", "read_stokes", "products_from_dataset", "decode_attrs"]
@@ -55,7 +56,8 @@ def open_stokes(path):
 def _check(path):
     p = Path(path)
     if not p.is_file():
-        raise InputError(f"Stokes result {p} does not exist; give a stokes.nc written by 'polarsky stokes'")
+        raise InputError(f"Stokes result {p} {path_problem(p) or 'is not a file'}; give a stokes.nc written by "
+                         "'polarsky stokes'")
 
 
 def read_stokes(path) -> dict:

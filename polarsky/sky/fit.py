@@ -19,7 +19,8 @@ from __future__ import annotations
 
 import numpy as np
 
-__all__ = ["MASK_REASONS", "sky_mask", "fit_dolp_max", "wrap_aolp_difference", "residual_stats",
+__all__ = ["MASK_REASONS", "describe_mask", "channel_mean", "sky_mask", "fit_dolp_max", "wrap_aolp_difference",
+           "residual_stats",
            "subsample"]
 
 #: Codes of the ``sky_mask_reason`` map: 0 = used for the fit.
@@ -34,6 +35,32 @@ MASK_REASONS = {
     7: "too dark (obstacle)",
     8: "excluded by --sky-mask",
 }
+
+
+def channel_mean(a: np.ndarray) -> np.ndarray:
+    """Mean over the first axis (channels) of the finite values; NaN where none is finite.
+
+    Unlike ``np.nanmean`` it says nothing (no RuntimeWarning) about pixels invalid in every
+    channel, such as a saturated sun.
+
+    >>> channel_mean(np.array([[1.0, np.nan], [3.0, np.nan]], np.float32))
+    array([ 2., nan], dtype=float32)
+    """
+    finite = np.isfinite(a)
+    n = finite.sum(axis=0)
+    total = np.where(finite, a, 0).sum(axis=0)
+    with np.errstate(invalid="ignore", divide="ignore"):
+        return np.where(n > 0, total / np.maximum(n, 1), np.nan).astype(a.dtype)
+
+
+def describe_mask(reason) -> str:
+    """The pixels a sky mask left out, by reason, most first: ``"1200 px below the horizon, ..."``.
+
+    >>> describe_mask(np.array([[2, 2], [8, 0]], np.uint8))
+    '2 px below the horizon, 1 px excluded by --sky-mask'
+    """
+    counts = [(int(np.count_nonzero(reason == k)), MASK_REASONS[k]) for k in MASK_REASONS if k != 0]
+    return ", ".join(f"{n} px {name}" for n, name in sorted(counts, key=lambda c: -c[0]) if n)
 
 
 def sky_mask(*, inside, up, valid, s0, dolp, scattering_angle_deg, elevation_deg, bands,

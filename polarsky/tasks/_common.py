@@ -16,7 +16,12 @@ import numpy as np
 
 from ..errors import PolarskyWarning
 
-__all__ = ["resolve_settings", "open_source", "Opened", "collect_warnings", "publish_result"]
+__all__ = ["resolve_settings", "open_source", "Opened", "collect_warnings", "publish_result", "check_estimate",
+           "IMPOSSIBLE_FRACTION"]
+
+#: Refuse a result when more than this fraction of a channel's valid pixels had a DoLP above 1
+#: beyond their uncertainty (fewer are masked with a warning).
+IMPOSSIBLE_FRACTION = 0.01
 
 
 def resolve_settings(settings=None, options=None):
@@ -259,6 +264,55 @@ def _open_mosaic(frames, settings, cal, noise, compiled) -> Opened:
         "aligned": False, "saturated_px": info["saturated_px"], "black_px": info["black_px"],
     }
     return Opened(source=source, noise=noise, facts=facts, inputs=list(info["files"]), timing={"read": t_read})
+
+
+def check_estimate(info: dict, settings, channels) -> None:
+    """Refuse a result no light can give, warn about one that is partly so.
+
+    ``info`` is what :func:`polarsky.estimate.runner.run_blocks` returned.  No valid pixel at
+    all, or a DoLP above 1 (beyond its uncertainty) in more than :data:`IMPOSSIBLE_FRACTION`
+    of a channel's valid pixels, raises :class:`InputError` naming the likely cause; a few
+    such pixels were masked and are counted in a warning; a channel without valid pixels is
+    warned about.
+
+    Raises
+    ------
+    InputError
+    """
+    from ..errors import InputError
+
+    valid = np.asarray(info["valid_px"])
+    bad = np.asarray(info["impossible_px"])
+    if not (valid + bad).any():
+        align = " or outside the frames' common area after alignment" if settings.estimate.align else ""
+        raise InputError(f"none of the {info['pixels']} pixels is valid: each is saturated (>= 98% of full scale) "
+                         f"or at the black level in at least one frame{align}; expose the frames again so that the "
+                         "scene is neither clipped nor black")
+    counted = valid + bad
+    worst = int(np.argmax(bad / np.maximum(counted, 1)))
+    if bad[worst] > IMPOSSIBLE_FRACTION * counted[worst]:
+        from .._shared.checks import dolp_above_one_cause
+
+        est = settings.estimate
+        cause = dolp_above_one_cause(est.extinction, est.calibration)
+        where = "" if len(channels) == 1 else f" of channel {channels[worst]}"
+        raise InputError(f"DoLP above 1, which no light has, in {bad[worst]} of {counted[worst]} valid pixels{where} "
+                         f"(up to {_plain(info['largest_dolp'])}): the filter model does not fit these frames; {cause}")
+    if bad.any():
+        warnings.warn(f"{int(bad.sum())} pixel values had a DoLP above 1 beyond their uncertainty (up to "
+                      f"{_plain(info['largest_dolp'])}) and were masked: no light is more than fully polarized "
+                      "(motion, a hot pixel or a reflection that changed between frames?)", PolarskyWarning,
+                      stacklevel=3)
+    if len(channels) > 1:
+        for name, n in zip(channels, valid):
+            if n == 0:
+                warnings.warn(f"channel {name} has no valid pixel (saturated or black in some frame everywhere)",
+                              PolarskyWarning, stacklevel=3)
+
+
+def _plain(x: float) -> str:
+    """A DoLP for a message: three decimals, whole numbers when large (never an exponent)."""
+    return f"{x:.3f}" if x < 100 else f"{x:.0f}"
 
 
 def _cond(w) -> float:

@@ -7,7 +7,7 @@ form (:mod:`polarsky.advice`).
 
 from __future__ import annotations
 
-from ._common import collect_warnings, open_source, resolve_settings
+from ._common import check_estimate, collect_warnings, open_source, resolve_settings
 
 __all__ = ["run_advise", "advice_from_sums", "advise_surface"]
 
@@ -61,7 +61,8 @@ def run_advise(frames=(), out_dir=None, settings=None, *, progress: bool = False
             masks["protect"] = adv.protect.as_mask(src.shape)
         sink = RegionSink(masks)
         preview = PreviewSink(src.shape, max_side=1200, names=("S0", "S1", "S2", "valid"))
-        run_blocks(src, op.noise, [sink, preview] if out_dir is not None else [sink], progress=progress)
+        info = run_blocks(src, op.noise, [sink, preview] if out_dir is not None else [sink], progress=progress)
+        check_estimate(info, settings, src.channels)
         extinction = settings.estimate.extinction
         result = advice_from_sums(sink.sums, sink.counts, op.facts, len(src.channels), region=adv.region,
                                   protect=adv.protect, extinction=extinction,

@@ -34,7 +34,7 @@ from ..conventions import SUN_CAUTION
 from ..errors import InputError, PolarskyWarning
 from ..estimate.calibration import Calibration, applied_analysis
 from ..sky.features import feature_bands
-from ..sky.fit import fit_dolp_max, sky_mask
+from ..sky.fit import channel_mean, describe_mask, fit_dolp_max, sky_mask
 from ..sky.models import get_model
 from ..sky.orient import TIE_CORRELATION, fit_orientation, sample_bracket
 from ..sky.position_fit import fit_position_offsets, position_samples
@@ -128,8 +128,8 @@ def fit_sky_calibration(brackets, settings, *, stokes=None, position_data=None, 
         prior_offsets.append(po)
         prior_diatt.append(pd)
         valid = np.all(products["valid"], axis=0)
-        s0 = np.nanmean(products["S"][0], axis=0)
-        dmean = np.nanmean(dolp, axis=0)
+        s0 = channel_mean(products["S"][0])
+        dmean = channel_mean(dolp)
         user = None if sk.sky_mask is None else sk.sky_mask.as_mask((h, w))
         if solve:
             usable = valid & np.isfinite(dmean) & (dmean <= 1) & (s0 >= 0.25 * float(np.nanmedian(s0[valid])))
@@ -144,8 +144,10 @@ def fit_sky_calibration(brackets, settings, *, stokes=None, position_data=None, 
                           user_mask=user, min_elevation_deg=min_elevation_deg)
         used = reason == 0
         if np.count_nonzero(used) < 50:
-            raise InputError(f"bracket {i + 1} ({', '.join(map(str, frames)) or 'given data'}) has only "
-                             f"{np.count_nonzero(used)} clear-sky pixels; check its orientation and --sky-mask")
+            n_used = int(np.count_nonzero(used))
+            raise InputError(f"bracket {i + 1} ({', '.join(map(str, frames)) or 'given data'}) has "
+                             f"{f'only {n_used}' if n_used else 'no'} clear-sky pixels of the 50 a fit needs "
+                             f"({describe_mask(reason)}); check its orientation and --sky-mask")
         samples.append(sample_bracket(geom, aolp, dolp, used, max_samples=max_fit_samples, seed=seed + 100 + i))
         infos.append(info)
         fitted_data.append((dolp, m["dolp"], used, products["S"][0], geom))

@@ -13,7 +13,8 @@ import numpy as np
 from ..errors import InputError
 from ._common import collect_warnings, resolve_settings
 
-__all__ = ["run_sky", "prepare_sky", "stokes_products", "lens_of", "SUN_BELOW_HORIZON_DEG"]
+__all__ = ["run_sky", "prepare_sky", "stokes_products", "lens_of", "check_daylight", "check_sky_settings",
+           "SUN_BELOW_HORIZON_DEG"]
 
 #: Sun elevations (apparent, degrees) below which a clear-sky comparison is refused: the
 #: single-scattering model describes the daylit sky (civil twilight ends at -6 deg).
@@ -29,12 +30,13 @@ def stokes_products(frames, settings) -> dict:
         return read_stokes(frames[0])
     from ..estimate.runner import run_blocks
     from ..estimate.sinks import MemorySink
-    from ._common import open_source
+    from ._common import check_estimate, open_source
 
     op = open_source(frames, settings)
     src = op.source
     mem = MemorySink(src.shape, len(src.channels), ("S0", "S1", "S2", "dolp", "aolp", "valid"))
-    run_blocks(src, op.noise, [mem])
+    info = run_blocks(src, op.noise, [mem])
+    check_estimate(info, settings, src.channels)
     a = mem.arrays
     return {"S": np.stack([a["S0"], a["S1"], a["S2"]]), "dolp": a["dolp"], "aolp": a["aolp"], "valid": a["valid"],
             "channels": src.channels, "inputs": op.inputs,
@@ -47,6 +49,39 @@ def _turned_quarter(products) -> bool:
         return int(products.get("attrs", {}).get("orientation") or 1) in (5, 6, 7, 8)
     except (TypeError, ValueError):
         return False
+
+
+def check_daylight(sun: dict, tp: dict) -> None:
+    """Refuse a sun below :data:`SUN_BELOW_HORIZON_DEG` (``sun``: :func:`~polarsky.sky.sun.sun_position`,
+    ``tp``: :func:`~polarsky.sky.sun.resolve_time_place`)."""
+    if sun["elevation_deg"] < SUN_BELOW_HORIZON_DEG:
+        raise InputError(f"the sun is {-sun['elevation_deg']:.1f} deg below the horizon at {tp['when'].isoformat()} "
+                         f"({tp['latitude_deg']:.4f}, {tp['longitude_deg']:.4f}); the clear-sky model needs a daylit "
+                         "sky: check --when (and its UTC offset), --lat and --lon")
+
+
+def check_sky_settings(settings) -> None:
+    """What can be checked of a sky comparison before any frame is read: the lens settings
+    (unless the focal length is left to EXIF) and, when the time and place are given, that
+    the sun is up.  The batch calls this before its first bracket.
+
+    Raises
+    ------
+    InputError
+    """
+    from ..geometry.camera import make_lens
+    from ..sky.sun import resolve_time_place, sun_position
+
+    g = settings.geometry
+    if g.lens != "pinhole" or g.hfov_deg is not None or g.focal_px is not None or \
+            (g.focal_mm is not None and g.sensor_width_mm is not None):
+        make_lens(g.lens, 4000, 3000, hfov_deg=g.hfov_deg, focal_px=g.focal_px, focal_mm=g.focal_mm,
+                  sensor_width_mm=g.sensor_width_mm, distortion=g.distortion, fov_deg=g.fov_deg)
+    if g.when is not None and g.lat is not None and g.lon is not None:
+        tp = resolve_time_place(when=g.when, lat=g.lat, lon=g.lon, altitude_m=g.altitude_m)
+        sun = sun_position(tp["when"], tp["latitude_deg"], tp["longitude_deg"], altitude_m=tp["altitude_m"],
+                           pressure_hpa=g.pressure_hpa, temperature_c=g.temperature_c, delta_t_s=g.delta_t_s)
+        check_daylight(sun, tp)
 
 
 def lens_of(g, width: int, height: int, *, focal_px=None, focal_mm=None):
@@ -84,10 +119,7 @@ def prepare_sky(frames, settings, *, stokes=None):
     tp = resolve_time_place(when=g.when, lat=g.lat, lon=g.lon, altitude_m=g.altitude_m, exif=exif)
     sun = sun_position(tp["when"], tp["latitude_deg"], tp["longitude_deg"], altitude_m=tp["altitude_m"],
                        pressure_hpa=g.pressure_hpa, temperature_c=g.temperature_c, delta_t_s=g.delta_t_s)
-    if sun["elevation_deg"] < SUN_BELOW_HORIZON_DEG:
-        raise InputError(f"the sun is {-sun['elevation_deg']:.1f} deg below the horizon at {tp['when'].isoformat()} "
-                         f"({tp['latitude_deg']:.4f}, {tp['longitude_deg']:.4f}); the clear-sky model needs a daylit "
-                         "sky: check --when (and its UTC offset), --lat and --lon")
+    check_daylight(sun, tp)
     c, h, w = products["dolp"].shape
     focal_px, focal_mm, focal_source = g.focal_px, g.focal_mm, "option"
     if g.lens == "pinhole" and g.hfov_deg is None and focal_px is None and focal_mm is None:
@@ -146,6 +178,9 @@ def run_sky(frames=(), out_dir=None, settings=None, *, stokes=None, max_fit_samp
         products, geom, info = prepare_sky(frames, settings, stokes=stokes)
         inputs = products.get("inputs") or [str(f) for f in frames]
         with open_stage(out_dir, command="sky", inputs=inputs) as stage:
+            c, h, w = products["dolp"].shape  # sky.nc's maps; 7 PNG figures of about 60 kB + 1.5 bytes per pixel
+            stage.reserve(30_000 + (3 * c + 6) * h * w * 4 + (7 * (60_000 + int(1.5 * min(h * w, 1 << 20)))
+                                                              if settings.output.pictures else 0))
             before = set(stage.outputs())
             result = compare(products, geom, info, stage.dir, settings=settings, model=model,
                              max_fit_samples=max_fit_samples, seed=seed, inputs=inputs)

@@ -12,9 +12,10 @@ import numpy as np
 
 from .._version import __version__
 from ..conventions import SUN_CAUTION
-from ..errors import PolarskyWarning
+from ..errors import InputError, PolarskyWarning
 from ..sky.features import feature_bands
-from ..sky.fit import MASK_REASONS, fit_dolp_max, residual_stats, sky_mask, wrap_aolp_difference
+from ..sky.fit import (MASK_REASONS, channel_mean, describe_mask, fit_dolp_max, residual_stats, sky_mask,
+                       wrap_aolp_difference)
 from ..sky.orient import fit_orientation, sample_bracket
 from ..sky.rayleigh import RHO_AIR_YOUNG1980, dolp_max_bound
 from ..sky.skymap import model_maps
@@ -51,8 +52,8 @@ def compare(products, geom, info, out_dir, *, settings, model, max_fit_samples, 
     valid_all = np.all(products["valid"], axis=0) if products["valid"].ndim == 3 else products["valid"]
     user = None if sk.sky_mask is None else sk.sky_mask.as_mask((h, w))
     bands = feature_bands(sun_radius_deg=sun_mask_deg)
-    s0 = np.nanmean(s[0], axis=0) if c > 1 else s[0, 0]
-    dolp_mean = np.nanmean(dolp, axis=0) if c > 1 else dolp[0]
+    s0 = channel_mean(s[0]) if c > 1 else s[0, 0]
+    dolp_mean = channel_mean(dolp) if c > 1 else dolp[0]
 
     orientation = {"source": "option"}
     if solve:
@@ -97,6 +98,9 @@ def compare(products, geom, info, out_dir, *, settings, model, max_fit_samples, 
                       user_mask=user, min_elevation_deg=min_elevation_deg)
     used = reason == 0
     n_used = int(np.count_nonzero(used))
+    if n_used == 0:
+        raise InputError(f"no sky pixel is left for the comparison ({describe_mask(reason)}); check --when, --lat, "
+                         "--lon, the orientation (--yaw-deg, --pitch-deg, --roll-deg), the lens and --sky-mask")
     warn_few(n_used)
     shape_used = shape[used]
     joint = fit_dolp_max(dolp[:, used], np.broadcast_to(shape_used, (c, n_used)), seed=seed)

@@ -64,6 +64,31 @@ def _set_attrs(obj, attrs: dict) -> None:
         obj.attrs[k] = val
 
 
+def _discard_writes(f) -> None:
+    """Send the rest of an abandoned HDF5 file's writes to an anonymous memory file.
+
+    After a failed write (a full disk) the HDF5 library still holds data it must flush when
+    the file is closed; the close fails again and leaves the library in a state in which the
+    interpreter crashes on exit.  Pointing the file's descriptor at a memory file lets the
+    close succeed (Linux; elsewhere nothing is done).
+    """
+    if not hasattr(os, "memfd_create"):
+        return
+    try:
+        if not f.id.valid:
+            return
+        fd = f.id.get_vfd_handle()
+        if not isinstance(fd, int) or fd < 0:
+            return
+        sink = os.memfd_create("polarsky-discarded")
+    except Exception:  # noqa: BLE001 - another driver or a closed file: nothing to redirect
+        return
+    try:
+        os.dup2(sink, fd)
+    finally:
+        os.close(sink)
+
+
 class NetCDFFile:
     """A NetCDF-4 file written under a temporary name and renamed into place by :meth:`commit`.
 
@@ -126,11 +151,17 @@ class NetCDFFile:
         _set_attrs(self._f, attrs)
 
     def commit(self) -> Path:
-        self._f.close()
+        try:
+            self._f.close()
+        except BaseException:
+            self.abort()
+            raise
         os.replace(self.tmp, self.path)
         return self.path
 
     def abort(self) -> None:
+        """Close and remove the partial file, whatever state a failed write left it in."""
+        _discard_writes(self._f)
         try:
             self._f.close()
         except Exception:  # noqa: BLE001 - already closed or broken: remove it anyway

@@ -13,8 +13,8 @@ marker ``.polarsky-run.json``); a folder holding the run's own inputs is refused
 
 from __future__ import annotations
 
+import contextlib
 import datetime as _dt
-import errno
 import hashlib
 import json
 import os
@@ -22,19 +22,19 @@ import re
 import shutil
 import tempfile
 import time
-import uuid
 from pathlib import Path
 
 from .._version import __version__
+from .._shared.checks import path_problem
 from ..errors import InputError
+from .space import folder_bytes, free_bytes, human_size, is_write_error, write_error
+from .swap import STAGING, clean_leftovers, hidden_name, swap_in
 
 __all__ = ["OutputStage", "Into", "open_stage", "check_destination", "MARKER", "check_out_dir", "folder_lock",
-           "swap_in", "FolderLock", "listed_files", "published_path"]
+           "swap_in", "FolderLock", "listed_files", "published_path", "write_error", "human_size"]
 
 #: Hidden file that marks a folder written by polarsky (and lists the run's outputs).
 MARKER = ".polarsky-run.json"
-_STAGING = "polarsky-staging"
-_OLD = "polarsky-old"
 
 
 def check_out_dir(out_dir, *, inputs=(), option: str = "--out") -> Path:
@@ -49,12 +49,17 @@ def check_out_dir(out_dir, *, inputs=(), option: str = "--out") -> Path:
     if out_dir is None or str(out_dir).strip() == "":
         raise InputError(f"{option} is empty; give the folder for the outputs, e.g. {option} out/")
     out = Path(out_dir)
+    problem = path_problem(out)
+    if problem not in (None, "does not exist"):
+        raise InputError(f"{option} {out} {problem}; give a folder path")
+    if out.is_symlink() and out.is_dir():
+        out = Path(os.path.realpath(out))  # publish into the folder the link points to; the link stays
     if out.exists() and not out.is_dir():
         raise InputError(f"{option} {out} exists and is not a folder; give a folder path")
-    target = out.resolve()
+    target = Path(os.path.realpath(out))
     for f in inputs:
         try:
-            Path(f).resolve().relative_to(target)
+            Path(os.path.realpath(f)).relative_to(target)
         except ValueError:
             continue
         raise InputError(f"{option} {out} holds the input {f}; outputs replace the whole folder, so choose another "
@@ -77,16 +82,23 @@ class FolderLock:
     def __init__(self, folder: Path, *, what: str = "--out"):
         self.folder = Path(folder)
         self.what = what
-        key = hashlib.sha256(str(self.folder.resolve()).encode("utf-8", "surrogateescape")).hexdigest()[:32]
+        key = hashlib.sha256(os.path.realpath(self.folder).encode("utf-8", "surrogateescape")).hexdigest()[:32]
         locks = Path(tempfile.gettempdir()) / "polarsky-locks"
-        locks.mkdir(exist_ok=True)
+        if not locks.is_dir():
+            locks.mkdir(exist_ok=True)
+            with contextlib.suppress(OSError):  # shared by every user of the machine, like /tmp
+                os.chmod(locks, 0o1777)
         self.path = locks / f"{key}.lock"
         self._fh = None
 
     def acquire(self) -> None:
         import fcntl
 
-        self._fh = open(self.path, "a+")
+        try:
+            self._fh = open(self.path, "a+")
+        except OSError as exc:
+            raise InputError(f"cannot lock {self.folder} for writing: {self.path} cannot be opened ({exc.strerror})") \
+                from None
         try:
             fcntl.flock(self._fh, fcntl.LOCK_EX | fcntl.LOCK_NB)
         except OSError:
@@ -114,11 +126,7 @@ def folder_lock(folder, *, what: str = "--out") -> FolderLock:
     return FolderLock(folder, what=what)
 
 
-def _hidden(out: Path, kind: str) -> Path:
-    return out.parent / f".{out.name}.{kind}-{os.getpid()}-{uuid.uuid4().hex[:8]}"
-
-
-_STAGED = re.compile(rf"^\.(?P<name>.+)\.{_STAGING}-\d+-[0-9a-f]{{8}}$")
+_STAGED = re.compile(rf"^\.(?P<name>.+)\.{STAGING}-\d+-[0-9a-f]{{8}}$")
 
 
 def published_path(path) -> Path:
@@ -138,26 +146,41 @@ def listed_files(folder: Path) -> list:
                   if p.is_file() and not any(part.startswith(".") for part in p.relative_to(folder).parts))
 
 
-def clean_leftovers(out: Path) -> None:
-    """Remove staging and old folders of ``out`` left by killed runs (call with the lock held)."""
-    if not out.parent.is_dir():
-        return
-    prefix = f".{out.name}."
-    for p in out.parent.iterdir():
-        if p.name.startswith(prefix) and (f".{_STAGING}-" in p.name[len(out.name):] or
-                                          f".{_OLD}-" in p.name[len(out.name):]):
-            shutil.rmtree(p, ignore_errors=True)
+class _Destination:
+    """What every destination of a task's files shares: the space check and write errors
+    that name the folder the user gave (``out_dir``), never the folder written into (``dir``)."""
 
+    dir: Path
+    out_dir: Path
+    expected_bytes = None
 
-def swap_in(staged: Path, out: Path) -> None:
-    """Put the complete folder ``staged`` in place of ``out`` by renames (old removed last)."""
-    old = None
-    if out.exists():
-        old = _hidden(out, _OLD)
-        os.rename(out, old)
-    os.rename(staged, out)
-    if old is not None:
-        shutil.rmtree(old, ignore_errors=True)
+    def reserve(self, nbytes: int) -> None:
+        """Say about how many bytes this run will write; refuse now if the device has clearly
+        too little free (less than half of it: compression makes the estimate rough).
+
+        Raises
+        ------
+        InputError
+            Naming the folder, the space needed and the space free.
+        """
+        self.expected_bytes = int(nbytes)
+        free = free_bytes(self.dir)
+        if free is not None and free < nbytes // 2:
+            raise InputError(f"not enough space on the device of {self.out_dir}: this run writes about "
+                             f"{human_size(nbytes)} and {human_size(free)} are free; free some space or choose "
+                             "another --out")
+
+    def _fail(self, exc) -> InputError | None:
+        """Clean up after ``exc``; return the one-line error when it is a failed write.
+
+        The free space the message gives is measured after this run's files were removed.
+        """
+        write = isinstance(exc, OSError) and is_write_error(exc, self.dir)
+        written = folder_bytes(self.dir) if write else 0
+        self.discard()
+        if not write:
+            return None
+        return write_error(exc, self.out_dir, staging=self.dir, need=self.expected_bytes, written=written)
 
 
 def relocate_records(staged: Path, out: Path) -> None:
@@ -189,7 +212,7 @@ def relocate_records(staged: Path, out: Path) -> None:
                         f.attrs[k] = text
 
 
-class OutputStage:
+class OutputStage(_Destination):
     """Write a run's outputs into a staging folder; :meth:`publish` swaps it in whole.
 
     Parameters
@@ -212,17 +235,18 @@ class OutputStage:
     def __init__(self, out_dir, *, command: str = "", inputs=(), relocate: bool = False):
         self.out_dir = check_out_dir(out_dir, inputs=inputs)
         self.command = command
+        self.expected_bytes = None
         self.relocate = relocate
         self.lock = FolderLock(self.out_dir)
         self.lock.acquire()
         try:
-            clean_leftovers(self.out_dir)
             try:
+                clean_leftovers(self.out_dir)
                 self.out_dir.parent.mkdir(parents=True, exist_ok=True)
-                self.dir = _hidden(self.out_dir, _STAGING)
+                self.dir = hidden_name(self.out_dir, STAGING)
                 self.dir.mkdir()
             except OSError as exc:
-                raise _os_error(exc, self.out_dir) from None
+                raise write_error(exc, self.out_dir) from None
         except BaseException:
             self.lock.release()
             raise
@@ -247,8 +271,7 @@ class OutputStage:
             (self.dir / MARKER).write_text(json.dumps(marker, indent=1) + "\n", encoding="utf-8")
             swap_in(self.dir, self.out_dir)
         except OSError as exc:
-            self.discard()
-            raise _os_error(exc, self.out_dir) from None
+            raise (self._fail(exc) or write_error(exc, self.out_dir, staging=self.dir)) from None
         finally:
             self.lock.release()
         return [self.out_dir / n for n in names]
@@ -261,29 +284,25 @@ class OutputStage:
         return self
 
     def __exit__(self, exc_type, exc, tb):
-        if exc_type is not None:
-            self.discard()
+        if exc_type is None:
+            return False
+        error = self._fail(exc)
+        if error is not None:
+            raise error from None
         return False
 
 
-def _os_error(exc: OSError, out: Path) -> InputError:
-    if exc.errno == errno.ENOSPC:
-        return InputError(f"no space left on the device of {out}; free some space or choose another --out")
-    if exc.errno in (errno.EACCES, errno.EPERM, errno.EROFS):
-        return InputError(f"cannot write to {out} ({exc.strerror}); choose a folder you can write to")
-    return InputError(f"cannot write to {out} ({exc.strerror or exc})")
-
-
-class Into:
+class Into(_Destination):
     """A destination inside a folder someone else publishes (a batch bracket's staging folder).
 
     Tasks given an ``Into`` write their files into ``folder`` next to those of other tasks and
-    leave publishing to the caller.
+    leave publishing to the caller.  ``shown_as`` is the folder messages name (the place the
+    files will be published to).
     """
 
-    def __init__(self, folder):
+    def __init__(self, folder, *, shown_as=None):
         self.dir = Path(folder)
-        self.out_dir = self.dir
+        self.out_dir = Path(shown_as) if shown_as is not None else self.dir
         self.dir.mkdir(parents=True, exist_ok=True)
 
     def path(self, name: str) -> Path:
@@ -301,7 +320,10 @@ class Into:
     def __enter__(self):
         return self
 
-    def __exit__(self, *exc):
+    def __exit__(self, exc_type, exc, tb):
+        error = None if exc_type is None else self._fail(exc)
+        if error is not None:
+            raise error from None
         return False
 
 

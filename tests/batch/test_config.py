@@ -123,6 +123,19 @@ def test_bad_values_name_file_table_and_key(tmp_path, table, key, value, match):
     assert f"{p} [{table}] {key}" in str(info.value) or f"[{table}]" in str(info.value)
 
 
+@pytest.mark.parametrize("text, match", [
+    ("[read]\nmanifest = 'm.csv'\n", r"\[read\]: manifest cannot be set for a whole batch; each bracket folder holds "
+                                     r"its own manifest.csv"),
+    ("[geometry]\nlens = 'fisheye-equidistant'\n", r"\[geometry\]: lens fisheye-equidistant needs fov_deg"),
+    ("[geometry]\nhfov_deg = 200\n", r"\[geometry\]: hfov_deg 200 must be below 180"),
+])
+def test_settings_that_would_fail_every_bracket_are_refused_before_the_first(tmp_path, text, match):
+    p = _write(tmp_path, text)
+    with pytest.raises(InputError, match=match) as info:
+        load_settings(p)
+    assert str(info.value).startswith(str(p))
+
+
 def test_protect_needs_region(tmp_path):
     with pytest.raises(InputError, match="--protect needs --region"):
         load_settings(_write(tmp_path, "[advise]\nprotect = [0, 0, 4, 4]\n"))

@@ -152,3 +152,30 @@ def test_names_are_unique_and_reserved_names_avoided(tmp_path):
 def test_missing_root_is_an_input_error(tmp_path):
     with pytest.raises(InputError, match="is not a folder"):
         discover_brackets(tmp_path / "nope")
+
+
+def test_a_symlinked_bracket_folder_is_followed_once_and_links_that_lead_nowhere_are_reported(tmp_path):
+    root = tmp_path / "in"
+    write_bracket(tmp_path / "elsewhere", "far")
+    root.mkdir()
+    (root / "linked").symlink_to(tmp_path / "elsewhere")
+    (root / "back").symlink_to(".")               # a loop through a folder link: each real folder once
+    (root / "dangling").symlink_to("gone")
+    (root / "loop_a").symlink_to("loop_b")
+    (root / "loop_b").symlink_to("loop_a")
+    found = {b.name: b for b in discover_brackets(root)}
+    assert found["linked__far"].rule == "name" and found["linked__far"].problem is None
+    assert found["in__dangling"].problem == "dangling is a symbolic link to 'gone', which does not exist; fix or " \
+                                            "remove the link"
+    assert "loop_a is a symbolic link that loops" in found["in__loop_a"].problem
+    assert "loop_b is a symbolic link that loops" in found["in__loop_b"].problem
+    assert len(found) == 4
+
+
+def test_output_folders_of_the_commands_are_not_searched(tmp_path):
+    from polarsky.tasks.stokes import run_stokes
+
+    frames = write_bracket(tmp_path / "in", "a", height=16, width=24)
+    run_stokes(frames, tmp_path / "in" / "a_out")  # its PNG maps carry no angle token
+    assert [b.name for b in discover_brackets(tmp_path / "in")] == ["in__a"]
+

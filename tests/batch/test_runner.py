@@ -317,3 +317,30 @@ def test_dashboard_when_asked_is_on_loopback(tmp_path):
         return
     with runner.batch_client(workers=1, scheduler=None, scratch=tmp_path / "s", dashboard=True) as c:
         assert c.dashboard_link.startswith("http://127.0.0.1:")
+
+
+def test_a_file_name_that_is_not_utf8_still_gives_the_summary_and_report(client, tmp_path):
+    # the rows travel from the workers through dask's messages and into UTF-8 files
+    root = tmp_path / "in"
+    frames = write_bracket(root / "ok", "pier", seed=1)
+    odd = root / "odd"
+    odd.mkdir()
+    for f in frames:
+        f.rename(odd / os.fsdecode(f.name.replace("pier", "p\xe8r").encode("latin-1")))
+    write_bracket(root / "ok", "pier", seed=1)
+    result = run_batch(root, tmp_path / "out", settings=_settings(**FAST), client=client)
+    assert sorted(r["status"] for r in result["rows"]) == ["done", "done"]
+    odd_row = next(r for r in result["rows"] if r["name"].startswith("odd"))
+    assert odd_row["source"] == "odd/p\ufffdr"
+    assert (tmp_path / "out" / "summary.csv").read_text(encoding="utf-8").count("\n") == 3
+    assert odd_row["name"] == "odd__p_r" and odd_row["name"] in (tmp_path / "out" / "report.html").read_text("utf-8")
+
+
+def test_out_equal_to_the_batch_root_does_not_rescan_its_own_outputs(client, tmp_path):
+    root = tmp_path / "in"
+    write_bracket(root / "a", "pier", seed=1)
+    first = run_batch(root, root, settings=_settings(**FAST), client=client)
+    again = run_batch(root, root, settings=_settings(**FAST), client=client)
+    assert [r["name"] for r in first["rows"]] == [r["name"] for r in again["rows"]] == ["a__pier"]
+    assert [r["status"] for r in again["rows"]] == ["skipped"]
+

@@ -69,16 +69,40 @@ def test_sky_residuals_reach_summary_and_report(sky_root, tmp_path):
     assert "sky residuals" in html and 'src="thumb_sky' not in html  # embedded, not linked
 
 
+def test_a_mosaic_sky_names_its_raw_frame_not_the_staging_folder(tmp_path):
+    # the sky step of a mosaic bracket reads the bracket's stokes.nc while it is still being written
+    import numpy as np
+
+    from polarsky.synthetic.mosaic import mosaic_sample, write_mosaic_png
+    from polarsky.synthetic.sky import render_sky_stokes
+    from tests.sky_scene import WHEN, geom
+
+    root = tmp_path / "in"
+    root.mkdir()
+    raw = mosaic_sample(render_sky_stokes(geom(), dtype=np.float64), "90,45;135,0", dtype=np.float64)
+    write_mosaic_png(root / "cam_0001.png", raw, full=4095)
+    settings, sky = _settings(tmp_path, GEOMETRY.format(when=WHEN) + "polarizer = 'front'\n"
+                              "[mosaic]\nmosaic = '90,45;135,0'\n[read]\nbit_depth = 12\n[output]\npictures = false\n")
+    (bracket,) = runner.list_brackets(root, settings=settings)
+    (tmp_path / "out").mkdir()
+    row = process_bracket({"bracket": bracket, "out_dir": str(tmp_path / "out"), "settings": settings, "sky": sky,
+                           "run_id": "t"})
+    assert row["status"] == "done", row["error"]
+    result = json.loads((tmp_path / "out" / row["name"] / "sky.json").read_text())
+    assert result["inputs"] == [str(root / "cam_0001.png")]
+    assert ".polarsky-tmp" not in json.dumps(result)
+
+
 def test_a_sky_table_alone_asks_for_the_comparison(tmp_path):
     assert _settings(tmp_path, "[sky]\nsolve = 'yaw'\n")[1]
     assert not _settings(tmp_path, "[read]\ntransfer = 'auto'\n")[1]
 
 
-def test_a_night_sky_fails_each_bracket_with_the_reason(sky_root, tmp_path):
-    settings, sky = _settings(tmp_path, GEOMETRY.format(when="2024-06-21T01:30:00+02:00") + "[output]\npictures = false\n")
-    rows = _run(sky_root, tmp_path / "out", settings, sky)
-    assert [r["status"] for r in rows] == ["failed"]
-    assert all("below the horizon" in r["error"] for r in rows)
+def test_a_night_sky_is_refused_before_any_bracket(tmp_path):
+    # time and place of the whole batch in its file: the sun's elevation is known before any bracket runs
+    with pytest.raises(InputError, match=r"batch.toml \[geometry\]: the sun is .* deg below the horizon at "
+                                         r"2024-06-21T01:30:00\+02:00"):
+        _settings(tmp_path, GEOMETRY.format(when="2024-06-21T01:30:00+02:00") + "[output]\npictures = false\n")
 
 
 @pytest.mark.parametrize("text, match", [

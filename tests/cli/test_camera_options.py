@@ -45,7 +45,7 @@ def test_summary_with_every_camera_fact_validates(tmp_path):
 
 #: option and value -> the start of the one-line error
 BAD_OPTIONS = {
-    "--bit-depth=40": "error: --bit-depth '40' must be a whole number of bits from 8 to 32",
+    "--bit-depth=40": "error: --bit-depth 40 must be a whole number of bits from 8 to 32",
     "--float-scale=-1": "error: --float-scale must be positive",
     "--orientation=portrait": "error: --orientation 'portrait' must be auto or an orientation 1..8",
     "--response=nowhere": "error: response curve nowhere does not exist; give the response.json",

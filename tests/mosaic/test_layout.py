@@ -47,6 +47,14 @@ def test_frame_not_multiple_of_cell(shape, colour):
         check_frame_shape(shape, lay)
 
 
+@pytest.mark.parametrize("shape, colour, need", [((2, 2), None, "4x4"), ((2, 8), None, "4x4"), ((4, 8), "RGGB", "8x8")])
+def test_a_frame_of_whole_cells_too_small_to_decode_is_said_so(shape, colour, need):
+    # a 2x2 frame is a multiple of the 2x2 cell: the fault is its size, not its alignment
+    with pytest.raises(InputError, match=f"too small to decode: .* needs at least {need} pixels") as info:
+        check_frame_shape(shape, parse_mosaic("90,45;135,0", colour))
+    assert "not a multiple" not in str(info.value)
+
+
 def test_frame_must_be_2d():
     with pytest.raises(InputError, match="single-channel"):
         check_frame_shape((48, 64, 3), parse_mosaic("90,45;135,0"))

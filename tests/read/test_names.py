@@ -25,6 +25,7 @@ def test_signed_tokens_and_separators():
     ("two_0deg_90deg.png", "2 angle tokens"),   # two tokens: no longer silently None
     ("a_1.35e2deg.png", "exponent"),
     ("a_1.5.5deg.png", "two decimal marks"),
+    ("a_1,350deg.png", "reads two ways"),        # a decimal comma or a thousands separator
 ])
 def test_names_that_read_more_than_one_way_are_refused(name, match):
     with pytest.raises(InputError, match=match) as info:

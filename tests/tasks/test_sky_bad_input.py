@@ -105,7 +105,8 @@ def test_calibration_bad_inputs(prods, tmp_path):
     settings = Settings.from_options(dict(hfov_deg=70, yaw_deg=10, pitch_deg=25, roll_deg=4, **PLACE))
     with pytest.raises(InputError, match="bracket 2 has channels R but bracket 1 has L"):
         fit_sky_calibration(None, settings, stokes=[prods, rgb])
-    with pytest.raises(InputError, match="clear-sky pixels; check its orientation"):
+    with pytest.raises(InputError, match="has no clear-sky pixels of the 50 a fit needs "
+                                         "\\(3072 px below the horizon\\); check its orientation"):
         fit_sky_calibration(None, settings.replace({"pitch_deg": -60}), stokes=[prods])
 
 
