@@ -3,6 +3,7 @@
 Usage (from the repository root)::
 
     python benchmarks/bench_batch_memory.py [--megapixels 100] [--pictures/--no-pictures] [--keep DIR]
+    python benchmarks/bench_batch_memory.py --megapixels 2       # a quick check of the script
 
 Writes four 16-bit linear TIFF frames of an invented scene (about 200 MB each at 100 MP,
 rendered row block by row block), runs the batch on a local cluster with one worker process
@@ -27,8 +28,8 @@ import numpy as np
 sys.path.insert(0, str(Path(__file__).resolve().parents[1]))
 
 from polarsky.batch import runner  # noqa: E402
-from polarsky.batch.config import merge_settings  # noqa: E402
-from polarsky.batch.synthetic import render_frames, stokes_field  # noqa: E402
+from polarsky.batch.config import load_settings  # noqa: E402
+from polarsky.synthetic.tree import render_frames, stokes_field  # noqa: E402
 
 
 def write_big_bracket(folder: Path, height: int, width: int, angles=(0, 45, 90, 135), block: int = 500):
@@ -75,7 +76,7 @@ def main(argv=None) -> int:
         t0 = time.perf_counter()
         write_big_bracket(work / "in", height, width)
         print(f"wrote 4 frames {width}x{height} ({width * height / 1e6:.1f} MP) in {time.perf_counter() - t0:.1f} s")
-        settings = merge_settings({"stokes": {"pictures": a.pictures}})
+        settings, _ = load_settings(overrides={"pictures": a.pictures})
         me = psutil.Process()
         peaks: dict[int, int] = {}
         stop = threading.Event()

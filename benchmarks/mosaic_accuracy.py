@@ -2,7 +2,8 @@
 
 Each scene (edges, fine texture, smooth gradients, uniform) is rendered at full sensor
 resolution, sampled through the mosaic ``90,45;135,0`` (each pixel sees only its own
-micro-polarizer), decoded by every registered method and compared with the truth:
+micro-polarizer), decoded by every registered method as the ``stokes`` command does (the
+mosaic source through the row-block runner) and compared with the truth:
 RMS error of DoLP over all pixels at least 4 (colour: 8) sensor pixels from the border, and RMS error of
 AoLP over those of them where the true DoLP is at least 0.1 (AoLP is undefined as DoLP -> 0).
 ``superpixel`` is scored against the truth averaged over each 2x2 cell (its output grid).
@@ -25,13 +26,26 @@ import numpy as np
 ROOT = os.path.join(os.path.dirname(__file__), "..")
 sys.path.insert(0, ROOT)
 
-from polarsky.mosaic.decode import fast_stokes, position_matrix  # noqa: E402
+from polarsky.core.noise import NoiseModel  # noqa: E402
+from polarsky.core.stokes import dolp_aolp  # noqa: E402
+from polarsky.estimate.runner import run_blocks  # noqa: E402
+from polarsky.estimate.sinks import MemorySink  # noqa: E402
+from polarsky.estimate.sources import MosaicSource  # noqa: E402
 from polarsky.mosaic.layout import parse_mosaic  # noqa: E402
-from polarsky.mosaic.methods import DEMOSAIC_METHODS  # noqa: E402
-from polarsky.mosaic.synthetic import SCENES, mosaic_sample  # noqa: E402
-from polarsky.stokes import dolp_aolp  # noqa: E402
+from polarsky.registries import DEMOSAIC_METHODS  # noqa: E402
+from polarsky.synthetic.mosaic import SCENES, mosaic_sample  # noqa: E402
 
 LAYOUT = "90,45;135,0"
+
+
+def decode(raw, layout, method):
+    """DoLP and AoLP (deg), (C, H', W'), of linear mosaic values ``raw`` (H, W) as the ``stokes``
+    command estimates them (:class:`polarsky.estimate.sources.MosaicSource` through the row-block
+    runner, the compiled or numpy path chosen by the frame's size as the command chooses it)."""
+    src = MosaicSource(raw, None, layout, DEMOSAIC_METHODS[method])
+    sink = MemorySink(src.shape, len(src.channels), ("dolp", "aolp"))
+    run_blocks(src, NoiseModel(), [sink])
+    return sink.arrays["dolp"].astype(np.float64), sink.arrays["aolp"].astype(np.float64)
 
 
 def errors(scene, method, layout=LAYOUT):
@@ -39,10 +53,9 @@ def errors(scene, method, layout=LAYOUT):
     lay = parse_mosaic(layout)
     h, w = scene.shape[-2:]
     raw = mosaic_sample(scene, lay)
-    est = fast_stokes(raw, position_matrix(lay), method).astype(np.float64)
+    d, a = (x[0] for x in decode(raw, lay, method))
     k = DEMOSAIC_METHODS[method].scale
     truth = scene if k == 1 else scene.reshape(3, h // 2, 2, w // 2, 2).mean(axis=(2, 4))
-    d, a = dolp_aolp(est)
     dt, at = dolp_aolp(truth)
     b = 4 // k
     sl = (slice(b, -b), slice(b, -b))
@@ -53,18 +66,15 @@ def errors(scene, method, layout=LAYOUT):
 
 def colour_errors(scene, method, order="RGGB", factors=(0.5, 1.0, 0.8)):
     """(rms_dolp, rms_aolp_deg) over R, G, B of a colour sensor (each colour a scaled copy)."""
-    from polarsky.mosaic import stokes_from_mosaic_values
-
     lay = parse_mosaic(LAYOUT, order)
     h, w = scene.shape[-2:]
     raw = mosaic_sample(np.stack([scene * f for f in factors]), lay)
-    ds = stokes_from_mosaic_values(raw, mosaic=LAYOUT, mosaic_colour=order, demosaic=method)
+    d, a = decode(raw, lay, method)
     k = DEMOSAIC_METHODS[method].scale
     truth = scene if k == 1 else scene.reshape(3, h // 2, 2, w // 2, 2).mean(axis=(2, 4))
     dt, at = dolp_aolp(truth)
     b = 8 // k
     sl = (slice(None), slice(b, -b), slice(b, -b))
-    d, a = ds.dolp.values, ds.aolp.values
     da = ((a - at[None] + 90) % 180 - 90)[sl]
     pol = np.broadcast_to(dt[None] >= 0.1, d.shape)[sl]
     return float(np.sqrt(np.mean((d - dt[None])[sl] ** 2))), float(np.sqrt(np.mean(da[pol] ** 2)))
