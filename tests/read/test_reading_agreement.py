@@ -12,13 +12,14 @@ from __future__ import annotations
 
 import csv
 import tempfile
+import warnings
 from pathlib import Path
 
 from hypothesis import given, settings
 from hypothesis import strategies as st
 
 from polarsky.batch.discover import discover_brackets
-from polarsky.errors import InputError
+from polarsky.errors import InputError, PolarskyWarning
 from polarsky.options.settings import ReadSettings
 from polarsky.read.bracket import bracket_files
 from polarsky.read.formats import FRAME_SUFFIXES
@@ -49,8 +50,14 @@ def bracket_names(draw):
 
 
 def _single(files, read):
+    """What a command makes of the files: their angles, checked as every command checks them."""
+    from polarsky.core.stokes import check_angles
+
     try:
         got, angles, _, _ = bracket_files(files, read)
+        with warnings.catch_warnings():  # badly conditioned angles are warned about, not refused
+            warnings.simplefilter("ignore", PolarskyWarning)
+            check_angles(angles)
     except InputError:
         return "refused"
     return sorted(zip((float(a) for a in angles), (p.name for p in got)))
