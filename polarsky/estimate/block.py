@@ -177,11 +177,13 @@ def estimate(inp: BlockInput, noise: NoiseModel, *, compiled: bool, smooth: bool
     inv_fw, q_var = noise.parameters(inp.full_scale)
     shape = (c, h, w)
     out = {k: np.empty(shape, np.float32) for k in PRODUCTS if k in want and k != "valid"}
-    for ci in range(c):
+
+    def channel(ci):
+        """Every wanted product of channel ``ci``, written into its slice of ``out``."""
         if not angles and "residual" not in want and not compiled:
             s = _solve_stokes_numpy(inp, ci)
             out["S0"][ci], out["S1"][ci], out["S2"][ci] = s
-            continue
+            return
         s, var, dolp, aolp, res = _solve_and_finish(inp, ci, n, mode, inv_fw, q_var, compiled)
         out["S0"][ci], out["S1"][ci], out["S2"][ci] = s
         if "dolp" in want:
@@ -191,7 +193,7 @@ def estimate(inp: BlockInput, noise: NoiseModel, *, compiled: bool, smooth: bool
         if "residual" in want:
             out["residual"][ci] = res
         if not uncertain:
-            continue
+            return
         if mode == 1 and smooth:
             if compiled:
                 from ..core.kernels.dispatch import smooth_pass
@@ -217,6 +219,14 @@ def estimate(inp: BlockInput, noise: NoiseModel, *, compiled: bool, smooth: bool
             for k, v in (("sigma_dolp", sig_p), ("sigma_aolp", sig_a), ("dolp_unbiased", unb)):
                 if k in out:
                     out[k][ci] = v
+
+    if compiled or c == 1:  # the compiled kernels use every core themselves
+        for ci in range(c):
+            channel(ci)
+    else:  # numpy releases the GIL on these arrays: one channel per core
+        from .._shared.threads import thread_map
+
+        thread_map(channel, range(c))
     out["valid"] = ~inp.invalid & np.isfinite(out["S0"])
     return out
 

@@ -33,6 +33,8 @@ from __future__ import annotations
 
 import numpy as np
 
+from .._shared.stats import percentile
+
 __all__ = ["sample_values", "estimate_exposure", "tone_check", "evidently_wrong", "KAPPA_WARNING", "LEVEL_EDGES"]
 
 #: Ratio of the second-smallest to the smallest generalized eigenvalue below which per-frame
@@ -221,8 +223,8 @@ def tone_check(values, valid, w, *, min_pixels: int = 300, min_dolp: float = 0.1
             out_k.append(None)
             out_s.append(None)
             continue
-        med = float(np.median(k))
-        mad = float(np.median(np.abs(k - med))) * 1.4826
+        med = percentile(k, 50)
+        mad = percentile(np.abs(k - med), 50) * 1.4826
         out_k.append(round(med, 4))
         out_s.append(round(1.2533 * mad / np.sqrt(k.size), 4))
     return {"levels": [[lo, hi] for lo, hi in zip(LEVEL_EDGES[:-1], LEVEL_EDGES[1:])], "pixels": out_n,

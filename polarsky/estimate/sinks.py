@@ -48,14 +48,17 @@ class PreviewSink:
     def write(self, r0, r1, products, frame0):
         s = self.step
         sel = slice((-r0) % s, r1 - r0, s)
+        # a decimated copy frees the block; at full resolution the block's own arrays are kept
+        # (the runner makes new ones for every block and never writes them again)
+        keep = (lambda a: a[:, sel, ::s].copy()) if s > 1 else (lambda a: a)
         for name in self.NAMES:
             if name in products and name in self.needs:
-                self._parts.setdefault(name, []).append(products[name][:, sel, ::s].copy())
+                self._parts.setdefault(name, []).append(keep(products[name]))
         f0 = products["S0"] * np.float32(0.5) if frame0 is None else frame0
-        self._parts.setdefault("frame0", []).append(f0[:, sel, ::s].copy())
+        self._parts.setdefault("frame0", []).append(keep(f0))
 
     def finish(self) -> dict:
-        self.arrays = {k: np.concatenate(v, axis=1) for k, v in self._parts.items()}
+        self.arrays = {k: v[0] if len(v) == 1 else np.concatenate(v, axis=1) for k, v in self._parts.items()}
         return self.arrays
 
 
@@ -137,6 +140,6 @@ class StatsSink:
             out["scene_aolp_deg"] = _r(float(aolp[0]))
         rel = np.concatenate(self._res) if self._res else np.zeros(0)
         if rel.size:
-            out["median_relative_residual"] = _r(float(np.median(rel)))
+            out["median_relative_residual"] = _r(percentile(rel, 50))
             out["p99_relative_residual"] = _r(percentile(rel, 99))
         return out

@@ -255,8 +255,11 @@ def load_bracket(frames=(), read=None) -> Bracket:
     check_angles(angles)
     if read.response is not None and read.transfer != "auto":
         raise InputError(f"--response and --transfer {read.transfer} both say how to linearize the frames; give one")
-    loaded = [read_frame(f, transfer=read.transfer, max_pixels=read.max_pixels, orientation=None,
-                         bit_depth=read.bit_depth, float_scale=read.float_scale) for f in files]
+    from .._shared.threads import thread_map
+
+    loaded = thread_map(lambda f: read_frame(f, transfer=read.transfer, max_pixels=read.max_pixels, orientation=None,
+                                             bit_depth=read.bit_depth, float_scale=read.float_scale),
+                        files, order_warnings_by=[Path(f).name for f in files])
     _check_same_layout(loaded)
     for fr in loaded:
         if (fr.data >= SATURATION_FRACTION * fr.full_scale).all():

@@ -44,7 +44,6 @@ def run_advise(frames=(), out_dir=None, settings=None, *, progress: bool = False
     from ..estimate.runner import run_blocks
     from ..estimate.sinks import PreviewSink
     from ..write.jsonio import write_json
-    from ..write.stage import check_destination, open_stage
 
     settings = resolve_settings(settings, options)
     adv = settings.advise
@@ -52,6 +51,8 @@ def run_advise(frames=(), out_dir=None, settings=None, *, progress: bool = False
         raise InputError("--region is required: the region to darken, a box x0,y0,x1,y1 or a mask image")
     surface, pitch = advise_surface(settings)
     if out_dir is not None:
+        from ..write.stage import check_destination, open_stage
+
         check_destination(out_dir)
     with collect_warnings() as caught:
         op = open_source(frames, settings)

@@ -22,6 +22,7 @@ import functools
 import hashlib
 import json
 import os
+import threading
 from dataclasses import dataclass, field
 from pathlib import Path
 
@@ -36,6 +37,7 @@ __all__ = ["Template", "template", "colour_lut", "colourize", "checker_rgb", "co
 #: Resolution of every picture (dots per inch of the matplotlib figure).
 DPI = 110
 _MEMORY: dict = {}
+_DRAWING = threading.Lock()
 #: version of what a cached template holds (part of every cache key)
 _FORMAT = 2
 
@@ -125,8 +127,11 @@ def _cached(key: str, make):
             return value
         except (OSError, ValueError):
             pass
-    value = make()
-    _MEMORY[key] = value
+    with _DRAWING:  # matplotlib is not thread-safe: one template at a time
+        if key in _MEMORY:
+            return _MEMORY[key]
+        value = make()
+        _MEMORY[key] = value
     if path is not None:
         tmp = path.with_name(f".{path.name}.{os.getpid()}.tmp.npz")
         try:

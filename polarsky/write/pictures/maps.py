@@ -13,6 +13,7 @@ from pathlib import Path
 import numpy as np
 
 from ..._shared.stats import percentile
+from ..._shared.threads import thread_map
 from ...palette import AXIS_LABEL_X, AXIS_LABEL_Y, INVALID_NOTE
 from .canvas import colour_lut, colourize, compose, template, write_png
 
@@ -149,23 +150,30 @@ def stokes_pictures(prev: dict, out_dir, *, channels, step: int = 1, polarizer: 
     s = np.stack([np.nansum(prev[n], axis=0) for n in ("S0", "S1", "S2")]).astype(np.float32)
     dolp, aolp = dolp_aolp(s)
     name = "" if channels == ["L"] else " (R+G+B)"
-    paths = [
-        save_map_png(out_dir / "dolp.png", dolp, kind="dolp", valid=valid, step=step,
-                     title=f"Degree of linear polarization{name}", label="DoLP (0..1)"),
-        save_map_png(out_dir / "aolp.png", aolp, kind="aolp", valid=valid, step=step,
-                     title=f"Angle of linear polarization{name}", label="AoLP (deg from image +x, counter-clockwise)"),
-    ]
-    params = {"shape": list(valid.shape), "step": int(step), "dolp_full": DOLP_FULL_SATURATION,
-              "title": f"Polarization{name}: hue = AoLP, saturation = DoLP, brightness = S0"}
-    tpl = template("composite", params, _draw_composite)
-    paths.append(write_png(out_dir / "polarization.png", compose(tpl, composite_rgb(s[0], dolp, aolp, valid))))
-    if "residual" in prev:
+
+    def composite():
+        params = {"shape": list(valid.shape), "step": int(step), "dolp_full": DOLP_FULL_SATURATION,
+                  "title": f"Polarization{name}: hue = AoLP, saturation = DoLP, brightness = S0"}
+        tpl = template("composite", params, _draw_composite)
+        return write_png(out_dir / "polarization.png", compose(tpl, composite_rgb(s[0], dolp, aolp, valid)))
+
+    def residual():
         with np.errstate(invalid="ignore", divide="ignore"):
             rel = np.max(prev["residual"] / prev["S0"], axis=0) * 100
-        paths.append(save_map_png(out_dir / "residual.png", rel, kind="residual", valid=valid, step=step,
-                                  title=("Least-squares residual: where frames disagree (motion, clouds, drift)"
-                                         if polarizer == "front" else
-                                         "Least-squares residual: interpolation error at edges, defects"),
-                                  label="RMS residual / S0 (%)"))
+        return save_map_png(out_dir / "residual.png", rel, kind="residual", valid=valid, step=step,
+                            title=("Least-squares residual: where frames disagree (motion, clouds, drift)"
+                                   if polarizer == "front" else
+                                   "Least-squares residual: interpolation error at edges, defects"),
+                            label="RMS residual / S0 (%)")
+
+    jobs = [lambda: save_map_png(out_dir / "dolp.png", dolp, kind="dolp", valid=valid, step=step,
+                                 title=f"Degree of linear polarization{name}", label="DoLP (0..1)"),
+            lambda: save_map_png(out_dir / "aolp.png", aolp, kind="aolp", valid=valid, step=step,
+                                 title=f"Angle of linear polarization{name}",
+                                 label="AoLP (deg from image +x, counter-clockwise)"),
+            composite]
+    if "residual" in prev:
+        jobs.append(residual)
+    paths = thread_map(lambda job: job(), jobs)  # colouring and encoding release the GIL
     return paths
 
