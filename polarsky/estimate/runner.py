@@ -23,14 +23,25 @@ __all__ = ["run_blocks", "block_rows", "use_compiled", "mask_impossible", "BLOCK
 #: Target number of float32 values per analyzer in one row block.
 BLOCK_VALUES = 1 << 20
 #: Inputs with fewer values (pixels x channels x analyzers, or sensor pixels of a mosaic) than
-#: this use the numpy reference path: it is as fast there, and loading the compiled kernels
-#: costs about a second.
-COMPILED_MIN_VALUES = 4_000_000
+#: this use the numpy reference path.  Loading the compiled kernels costs about 0.6 s in a new
+#: process (numba's import and its cache); measured by benchmarks/bench_speed.py (kernel
+#: choice), numpy in row blocks is as fast up to about 30 million values.
+COMPILED_MIN_VALUES = 30_000_000
 
 
-def use_compiled(n_values: int) -> bool:
-    """Whether an input of ``n_values`` values is large enough for the compiled kernels."""
-    return int(n_values) >= COMPILED_MIN_VALUES
+#: Once the kernels are loaded in a process (a batch worker, the second frame of a sequence),
+#: they are the faster path from this many values on.
+LOADED_MIN_VALUES = 1_000_000
+
+
+def use_compiled(n_values: int, kernels: str = "polarsky.core.kernels.dispatch") -> bool:
+    """Whether an input of ``n_values`` values should use the compiled kernels: when it is large
+    enough to pay for loading them, or when the module ``kernels`` is loaded in this process
+    already and the input is not tiny."""
+    import sys
+
+    n = int(n_values)
+    return n >= COMPILED_MIN_VALUES or (kernels in sys.modules and n >= LOADED_MIN_VALUES)
 
 
 #: A DoLP above 1 by more than this many of its standard uncertainties is impossible (no light

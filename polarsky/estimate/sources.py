@@ -109,7 +109,9 @@ class MosaicSource:
         self.eps = newton_eps(self.level)
         from .runner import use_compiled
 
-        self.compiled = use_compiled(self.values.size) if compiled is None else bool(compiled)
+        # four analyzer values per cell of four pixels, as many values as a bracket's
+        self.compiled = (use_compiled(4 * self.values.size, "polarsky.mosaic._kernels") if compiled is None
+                         else bool(compiled))
         self.fast = bool(self.compiled and layout.colour is None and not self.per_pixel and method.name in FAST_METHODS)
 
     def _window(self, r0: int, r1: int):
