@@ -50,22 +50,29 @@ def _shrink(img, px):
     return img
 
 
-def _frame_preview(path: Path, px: int):
-    """An 8-bit grey preview of a frame (display only), decoded by the reader every command uses."""
+def _frame_preview(frame, px: int):
+    """An 8-bit grey preview of a frame (display only).
+
+    ``frame`` is a path, decoded by the reader every command uses, or a frame already decoded
+    (:class:`polarsky.read.frames.Frame`); either is shown as its file's own transfer says
+    (8-bit images sRGB-encoded, deeper data and raw files linear), whatever ``--transfer`` was.
+    """
     from PIL import Image
 
     from ..errors import InputError
     from ..read.frames import read_frame
 
-    try:
-        fr = read_frame(path)
-    except InputError:
-        return None
-    step = max(1, int(max(fr.data.shape[1:]) // (2 * px)))
-    a = fr.data[:, ::step, ::step].astype(np.float32).mean(axis=0) / np.float32(fr.full_scale)
+    if isinstance(frame, (str, Path)):
+        try:
+            frame = read_frame(frame)
+        except InputError:
+            return None
+    linear = not (frame.kind == "image" and frame.data.dtype == np.uint8)  # read_frame's transfer "auto"
+    step = max(1, int(max(frame.data.shape[1:]) // (2 * px)))
+    a = frame.data[:, ::step, ::step].astype(np.float32).mean(axis=0) / np.float32(frame.full_scale)
     lo, hi = np.nanpercentile(a, [0.5, 99.5]) if a.size else (0.0, 1.0)
     a = np.clip((a - lo) / max(hi - lo, 1e-12), 0, 1)
-    if fr.encoding == "linear":  # linear data: lift the shadows for viewing
+    if linear:  # linear data: lift the shadows for viewing
         a = a ** (1 / 2.2)
     img = Image.fromarray((a * 255 + 0.5).astype(np.uint8)).convert("RGB")
     if max(img.size) < px:  # small frames: enlarge (nearest) so the axis line stays visible
@@ -74,8 +81,27 @@ def _frame_preview(path: Path, px: int):
     return _shrink(img, px)
 
 
-def make_thumbnails(folder, frames, *, px: int = 240, best_angle_deg=None) -> list[str]:
-    """Write the report thumbnails of one bracket into ``folder``; return their names."""
+def make_thumbnails(folder, frames=(), *, px: int = 240, best_angle_deg=None, pictures=None,
+                    first_frame=None) -> list[str]:
+    """Write the report thumbnails of one bracket into ``folder``; return their names.
+
+    Parameters
+    ----------
+    folder : path
+        The bracket's folder, holding the PNG pictures of its steps.
+    frames : sequence of path
+        The bracket's frames (the first is shown, with the recommended axis when
+        ``best_angle_deg`` is given).
+    px : int
+        Longest side of a thumbnail (pixels).
+    best_angle_deg : float, optional
+    pictures : dict, optional
+        The Stokes pictures already in memory (file name -> (H, W, 3) uint8, as
+        :func:`polarsky.write.pictures.maps.stokes_pictures` keeps them): the DoLP and AoLP
+        thumbnails are made from them instead of decoding ``dolp.png`` and ``aolp.png``.
+    first_frame : Frame, optional
+        The first frame already decoded, used instead of decoding ``frames[0]``.
+    """
     from PIL import Image, ImageDraw
 
     folder = Path(folder)
@@ -88,7 +114,12 @@ def make_thumbnails(folder, frames, *, px: int = 240, best_angle_deg=None) -> li
                 return p
         return None
 
-    for target, src in ((THUMB_DOLP, first("dolp")), (THUMB_AOLP, first("aolp"))):
+    for target, word in ((THUMB_DOLP, "dolp"), (THUMB_AOLP, "aolp")):
+        if pictures is not None and f"{word}.png" in pictures:
+            _shrink(Image.fromarray(pictures[f"{word}.png"]), px).save(folder / target, compress_level=1)
+            made.append(target)
+            continue
+        src = first(word)
         if src is not None:
             with Image.open(src) as im:
                 _shrink(im.convert("RGB"), px).save(folder / target, compress_level=1)
@@ -99,8 +130,8 @@ def make_thumbnails(folder, frames, *, px: int = 240, best_angle_deg=None) -> li
             with Image.open(p) as im:
                 _shrink(im.convert("RGB"), px).save(folder / f"thumb_sky_{p.stem}.png", compress_level=1)
             made.append(f"thumb_sky_{p.stem}.png")
-    if frames:
-        prev = _frame_preview(Path(frames[0]), px)
+    if first_frame is not None or frames:
+        prev = _frame_preview(first_frame if first_frame is not None else Path(frames[0]), px)
         if prev is not None:
             if best_angle_deg is not None and np.isfinite(best_angle_deg):
                 draw = ImageDraw.Draw(prev)

@@ -1,10 +1,12 @@
 """One bracket of a batch, on a worker: the same tasks as the commands, into one folder.
 
 :func:`process_bracket` hashes the bracket's inputs and settings, skips it when a complete
-output folder with the same hash exists, and otherwise runs ``stokes`` (and ``advise`` and
-``sky`` when the settings ask for them) into ``DIR/.polarsky-tmp/<name>.<pid>.<random>/``,
-makes the report's thumbnails, writes ``batch.json`` last and renames the folder to
-``DIR/<name>``.  The summary row is read from the results by their documented keys.
+output folder with the same hash exists, and otherwise runs the steps of ``stokes`` (and
+``advise`` and ``sky`` when the settings ask for them) into
+``DIR/.polarsky-tmp/<name>.<pid>.<random>/`` -- the same step code the commands use, fed by
+one read and one estimate of the frames -- makes the report's thumbnails from the pictures in
+memory, writes ``batch.json`` last and renames the folder to ``DIR/<name>``.  The summary row
+is read from the results by their documented keys.
 """
 
 from __future__ import annotations
@@ -144,42 +146,85 @@ def process_bracket(task: dict) -> dict:
 
 
 def _run(bracket: Bracket, settings, tmp: Path, *, sky: bool, t0: float) -> dict:
-    from ..tasks._common import collect_warnings
-    from ..tasks.stokes import run_stokes
+    """The steps of one bracket into ``tmp``: the frames are read once and estimated in one pass
+    whose row blocks feed every step's sinks (the Stokes step's, the advice's, the sky
+    comparison's products); each step then writes what its command writes."""
+    from ..estimate.runner import run_blocks
+    from ..tasks._common import check_estimate, collect_warnings, open_source
+    from ..tasks.stokes import StokesOutputs
     from ..write.stage import Into
     from .report import make_thumbnails
 
     frames = [str(f) for f in bracket.frames]
     dest = Into(tmp, shown_as=tmp.parent.parent / bracket.name)
+    advise = settings.advise.region is not None
+    mosaic = bracket.rule == "mosaic"
     with collect_warnings(reemit=False) as caught:
-        summary = run_stokes(frames, dest, settings)
-        values = {"mean_dolp": _mean(summary["mean_dolp"])}
-        if settings.advise.region is not None:
-            from ..tasks.advise import run_advise
+        if advise:
+            from ..tasks.advise import AdviceOutputs
 
-            advice = run_advise(frames, dest, settings)
+            AdviceOutputs.check(settings)
+        t_start = time.perf_counter()
+        op = open_source(frames, settings)
+        src = op.source
+        # one core per worker process: compress stokes.nc in this thread
+        job = StokesOutputs(op, dest, settings, write_threads=0)
+        sinks = list(job.sinks)
+        adv = memory = None
+        if advise:
+            adv = AdviceOutputs(op, settings, pictures=settings.output.pictures)
+            sinks += adv.sinks
+        if sky and not mosaic:  # a mosaic's sky step reads its stokes.nc, as 'polarsky sky' would
+            from ..estimate.sinks import MemorySink
+            from ..tasks.sky import SKY_PRODUCTS
+
+            memory = MemorySink(src.shape, len(src.channels), SKY_PRODUCTS)
+            sinks.append(memory)
+        with job.writing():
+            info = run_blocks(src, op.noise, sinks, rows=job.rows)
+            read_warnings = caught.messages()  # what a step reading the frames itself would have seen so far
+            job.commit(info)
+        summary = job.finish(caught, t_start=t_start)
+        values = {"mean_dolp": _mean(summary["mean_dolp"])}
+        if adv is not None:
+            with collect_warnings() as seen:
+                adv.check_estimate(info)
+            advice = adv.write(dest, adv.result(list(dict.fromkeys(read_warnings + seen.messages()))))
             values["best_angle_deg"] = advice["best_angle_deg"]
             values["reduction_stops"] = advice["reduction_stops"]
         if sky:
-            from ..tasks.sky import run_sky
+            from ..tasks.sky import products_in_memory, run_sky
 
-            # a mosaic's sky step reads its Stokes result (its frame still gives the EXIF and the inputs named);
-            # a bracket's reads its frames
-            stokes = None
-            if bracket.rule == "mosaic":
+            if mosaic:
+                # a mosaic's sky step reads its Stokes result (its frame still gives the EXIF and the inputs named)
                 from ..read.stokes_file import read_stokes
 
-                stokes = read_stokes(tmp / "stokes.nc")
-            result = run_sky(frames, dest, settings, stokes=stokes)
+                result = run_sky(frames, dest, settings, stokes=read_stokes(tmp / "stokes.nc"))
+            else:
+                with collect_warnings() as seen:  # the check the sky step's own pass would make
+                    check_estimate(info, settings, src.channels)
+                result = run_sky(frames, dest, settings, stokes=products_in_memory(memory, op),
+                                 warnings=list(dict.fromkeys(read_warnings + seen.messages())))
             values["rms_dolp_residual"] = result["rms_dolp_residual"]
             values["rms_aolp_residual_deg"] = result["rms_aolp_residual_deg"]
-        make_thumbnails(tmp, frames, px=settings.report.thumbnail_px, best_angle_deg=values.get("best_angle_deg"))
+        make_thumbnails(tmp, frames, px=settings.report.thumbnail_px, best_angle_deg=values.get("best_angle_deg"),
+                        pictures=job.pictures, first_frame=_first_frame(op))
         warn_text = " | ".join(sorted({one_line(m) for m in caught.messages()}))
     row = make_row(bracket, status="done", warnings=warn_text, **values)
     if not row["analyzer_angles_deg"]:
         row["analyzer_angles_deg"] = format_angle_list(summary["analyzer_angles_deg"])
     row["time_s"] = round(time.perf_counter() - t0, 3)
     return row
+
+
+def _first_frame(op):
+    """The first frame of an opened input as the report shows it: a bracket's first frame as
+    decoded, a mosaic's linear sensor values."""
+    if op.bracket is not None:
+        return op.bracket.frames[0]
+    from ..read.frames import Frame
+
+    return Frame(path=Path(op.inputs[0]), data=op.source.values[None], full_scale=1.0, encoding="linear", kind="raw")
 
 
 def process_brackets(tasks: list) -> list:

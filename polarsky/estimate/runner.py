@@ -112,7 +112,10 @@ def run_blocks(source, noise: NoiseModel, sinks, *, rows: int | None = None, com
     sinks : sequence
         Objects with ``write(r0, r1, products, frame0)`` (``frame0``: first analyzer's
         intensities of the block, or None) and optionally ``needs``, the products they read
-        (default all): only the products some sink needs are computed.
+        (default all): only the products some sink needs are computed.  A sink with
+        ``before_checks = True`` gets each block as estimated, before :func:`mask_impossible`
+        (what it would get in a pass of its own that computes no DoLP: the advice's region
+        sums), and must not keep the arrays (they are masked in place afterwards).
     rows : int, optional
         Rows per block (default :func:`block_rows`).
     compiled : bool, optional
@@ -136,6 +139,8 @@ def run_blocks(source, noise: NoiseModel, sinks, *, rows: int | None = None, com
     if needs is not None and {"dolp", "aolp"} & needs:
         needs = needs | {"dolp", "sigma_dolp"}  # a DoLP handed on is first checked against 1 (mask_impossible)
     context = SMOOTH_RADIUS if noise_source == "residual" and needs_context(needs) else 0
+    early = [s for s in sinks if getattr(s, "before_checks", False)]
+    late = [s for s in sinks if not getattr(s, "before_checks", False)]
     t_est = t_sink = 0.0
     valid_px = np.zeros(nc, np.int64)
     impossible_px = np.zeros(nc, np.int64)
@@ -156,15 +161,19 @@ def run_blocks(source, noise: NoiseModel, sinks, *, rows: int | None = None, com
             if (a, b) != (0, e1 - e0):
                 products = {k: v[:, a:b] for k, v in products.items()}
                 frame0 = None if frame0 is None else frame0[:, a:b]
+            t2 = time.perf_counter()
+            for sink in early:
+                sink.write(r0, r1, products, frame0)
+            t3 = time.perf_counter()
             n_valid, n_bad, top = mask_impossible(products)
             valid_px += n_valid
             impossible_px += n_bad
             largest = max(largest, top)
-            t2 = time.perf_counter()
-            for sink in sinks:
+            t4 = time.perf_counter()
+            for sink in late:
                 sink.write(r0, r1, products, frame0)
-            t_est += t2 - t1
-            t_sink += time.perf_counter() - t2
+            t_est += (t2 - t1) + (t4 - t3)
+            t_sink += (t3 - t2) + (time.perf_counter() - t4)
             if bar is not None:
                 bar.update(r1 - r0)
     finally:

@@ -9,7 +9,7 @@ from __future__ import annotations
 
 from ._common import check_estimate, collect_warnings, open_source, resolve_settings
 
-__all__ = ["run_advise", "advice_from_sums", "advise_surface"]
+__all__ = ["run_advise", "AdviceOutputs", "advice_from_sums", "advise_surface"]
 
 
 def run_advise(frames=(), out_dir=None, settings=None, *, progress: bool = False, **options) -> dict:
@@ -37,50 +37,115 @@ def run_advise(frames=(), out_dir=None, settings=None, *, progress: bool = False
         ``region_intensity`` and ``minimum_angle_deg`` (the angle that only darkens the region),
         ``best_ring_reading_deg`` with a ring calibration, ``surface_estimate`` with a surface.
     """
-    from ..advice.regions import RegionSink
-    from ..advice.ring import is_ring, ring_of_calibration
-    from ..core.stokes import diattenuation_from_extinction
-    from ..errors import InputError
     from ..estimate.runner import run_blocks
-    from ..estimate.sinks import PreviewSink
-    from ..write.jsonio import write_json
 
     settings = resolve_settings(settings, options)
-    adv = settings.advise
-    if adv.region is None:
-        raise InputError("--region is required: the region to darken, a box x0,y0,x1,y1 or a mask image")
-    surface, pitch = advise_surface(settings)
+    AdviceOutputs.check(settings)  # before any frame is read
     if out_dir is not None:
-        from ..write.stage import check_destination, open_stage
+        from ..write.stage import check_destination
 
         check_destination(out_dir)
     with collect_warnings() as caught:
         op = open_source(frames, settings)
-        src = op.source
-        masks = {"region": adv.region.as_mask(src.shape)}
-        if adv.protect is not None:
-            masks["protect"] = adv.protect.as_mask(src.shape)
-        sink = RegionSink(masks)
-        preview = PreviewSink(src.shape, max_side=1200, names=("S0", "S1", "S2", "valid"))
-        info = run_blocks(src, op.noise, [sink, preview] if out_dir is not None else [sink], progress=progress)
-        check_estimate(info, settings, src.channels)
-        extinction = settings.estimate.extinction
-        result = advice_from_sums(sink.sums, sink.counts, op.facts, len(src.channels), region=adv.region,
-                                  protect=adv.protect, extinction=extinction,
-                                  ring=ring_of_calibration(op.calibration) if is_ring(op.calibration) else None,
-                                  surface=surface, pitch_deg=pitch, warnings=caught.messages())
+        job = AdviceOutputs(op, settings, pictures=out_dir is not None and settings.output.pictures)
+        job.check_estimate(run_blocks(op.source, op.noise, job.sinks, progress=progress))
+        result = job.result(caught.messages())
         if out_dir is not None:
-            d = 1.0 if extinction is None else diattenuation_from_extinction(extinction)
-            with open_stage(out_dir, command="advise", inputs=op.inputs) as stage:
-                before = set(stage.outputs())
-                if settings.output.pictures:
-                    from ..write.pictures.advice import advice_pictures
+            from ..write.stage import open_stage
 
-                    advice_pictures(preview.finish(), masks, result, stage.dir, step=preview.step, diattenuation=d)
-                result["outputs"] = sorted(set(stage.outputs()) - before | {"advice.json"})
-                write_json(stage.path("advice.json"), result)
+            with open_stage(out_dir, command="advise", inputs=op.inputs) as stage:
+                job.write(stage, result)
                 stage.publish()
     return result
+
+
+class AdviceOutputs:
+    """What ``polarsky advise`` makes of an opened input: its sinks, the advice, its files.
+
+    The one implementation of the advice step, for the command and for a batch bracket (which
+    feeds the same row blocks to the Stokes step's sinks too).  The sinks read the blocks as
+    estimated (``before_checks``): the same Stokes sums whether or not the pass also computes
+    DoLP, which masks pixels whose DoLP is above 1 (:func:`polarsky.estimate.runner.mask_impossible`).
+
+    Parameters
+    ----------
+    op : polarsky.tasks._common.Opened
+    settings : polarsky.Settings
+        ``settings.advise.region`` is required (:meth:`check`).
+    pictures : bool
+        Keep the previews the pictures are drawn from (the advice is written to a folder with
+        pictures on).
+    """
+
+    #: longest side of the preview the pictures are drawn from
+    PREVIEW_MAX_SIDE = 1200
+
+    def __init__(self, op, settings, *, pictures: bool = True):
+        from ..advice.regions import RegionSink
+        from ..estimate.sinks import PreviewSink
+
+        self.op, self.settings = op, settings
+        self.surface, self.pitch_deg = self.check(settings)
+        adv = settings.advise
+        src = op.source
+        self.masks = {"region": adv.region.as_mask(src.shape)}
+        if adv.protect is not None:
+            self.masks["protect"] = adv.protect.as_mask(src.shape)
+        self.regions = RegionSink(self.masks)
+        self.preview = None
+        if pictures:
+            self.preview = PreviewSink(src.shape, max_side=self.PREVIEW_MAX_SIDE, names=("S0", "S1", "S2", "valid"))
+        #: the sinks to feed the row blocks to
+        self.sinks = [self.regions] + ([self.preview] if self.preview is not None else [])
+        for sink in self.sinks:
+            sink.before_checks = True
+
+    @staticmethod
+    def check(settings):
+        """Refuse settings without a region; return :func:`advise_surface` (before any frame is read)."""
+        from ..errors import InputError
+
+        if settings.advise.region is None:
+            raise InputError("--region is required: the region to darken, a box x0,y0,x1,y1 or a mask image")
+        return advise_surface(settings)
+
+    def check_estimate(self, info: dict) -> None:
+        """:func:`polarsky.tasks._common.check_estimate` on the counts the advice's sinks saw.
+
+        ``info`` is what the runner returned; pixels masked for a DoLP above 1 (only in a pass
+        that also computes DoLP) count as valid here, as in a pass of the advice alone."""
+        bad = [int(b) for b in info["impossible_px"]]
+        seen = {**info, "valid_px": [int(v) + b for v, b in zip(info["valid_px"], bad)],
+                "impossible_px": [0] * len(bad), "largest_dolp": 0.0}
+        check_estimate(seen, self.settings, self.op.source.channels)
+
+    def result(self, warnings) -> dict:
+        """The advice from the region sums (after the runner), with the run's ``warnings``."""
+        from ..advice.ring import is_ring, ring_of_calibration
+
+        op, adv = self.op, self.settings.advise
+        return advice_from_sums(self.regions.sums, self.regions.counts, op.facts, len(op.source.channels),
+                                region=adv.region, protect=adv.protect, extinction=self.settings.estimate.extinction,
+                                ring=ring_of_calibration(op.calibration) if is_ring(op.calibration) else None,
+                                surface=self.surface, pitch_deg=self.pitch_deg, warnings=warnings)
+
+    def write(self, stage, result: dict) -> dict:
+        """Draw the pictures (if kept) and write ``advice.json`` into ``stage``; ``result["outputs"]``
+        lists the files this step added."""
+        from ..core.stokes import diattenuation_from_extinction
+        from ..write.jsonio import write_json
+
+        extinction = self.settings.estimate.extinction
+        d = 1.0 if extinction is None else diattenuation_from_extinction(extinction)
+        before = set(stage.outputs())
+        if self.preview is not None:
+            from ..write.pictures.advice import advice_pictures
+
+            advice_pictures(self.preview.finish(), self.masks, result, stage.dir, step=self.preview.step,
+                            diattenuation=d)
+        result["outputs"] = sorted(set(stage.outputs()) - before | {"advice.json"})
+        write_json(stage.path("advice.json"), result)
+        return result
 
 
 def advice_from_sums(sums: dict, counts: dict, facts: dict, n_channels: int, *, region, protect=None, extinction=None,

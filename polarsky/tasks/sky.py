@@ -13,12 +13,16 @@ import numpy as np
 from ..errors import InputError
 from ._common import collect_warnings, resolve_settings
 
-__all__ = ["run_sky", "prepare_sky", "stokes_products", "lens_of", "check_daylight", "check_sky_settings",
-           "SUN_BELOW_HORIZON_DEG"]
+__all__ = ["run_sky", "prepare_sky", "stokes_products", "products_in_memory", "SKY_PRODUCTS", "lens_of",
+           "check_daylight", "check_sky_settings", "SUN_BELOW_HORIZON_DEG"]
 
 #: Sun elevations (apparent, degrees) below which a clear-sky comparison is refused: the
 #: single-scattering model describes the daylit sky (civil twilight ends at -6 deg).
 SUN_BELOW_HORIZON_DEG = -6.0
+
+
+#: The products a sky comparison reads.
+SKY_PRODUCTS = ("S0", "S1", "S2", "dolp", "aolp", "valid")
 
 
 def stokes_products(frames, settings) -> dict:
@@ -34,12 +38,18 @@ def stokes_products(frames, settings) -> dict:
 
     op = open_source(frames, settings)
     src = op.source
-    mem = MemorySink(src.shape, len(src.channels), ("S0", "S1", "S2", "dolp", "aolp", "valid"))
+    mem = MemorySink(src.shape, len(src.channels), SKY_PRODUCTS)
     info = run_blocks(src, op.noise, [mem])
     check_estimate(info, settings, src.channels)
+    return products_in_memory(mem, op)
+
+
+def products_in_memory(mem, op) -> dict:
+    """The products :func:`stokes_products` gives, from a memory sink of :data:`SKY_PRODUCTS`
+    that the row-block runner fed with the blocks of ``op`` (an opened input)."""
     a = mem.arrays
     return {"S": np.stack([a["S0"], a["S1"], a["S2"]]), "dolp": a["dolp"], "aolp": a["aolp"], "valid": a["valid"],
-            "channels": src.channels, "inputs": op.inputs,
+            "channels": op.source.channels, "inputs": op.inputs,
             "attrs": {k: op.facts.get(k) for k in ("polarizer", "analysis_matrix", "analyzer_angles_deg", "orientation")}}
 
 
@@ -144,7 +154,7 @@ def prepare_sky(frames, settings, *, stokes=None):
 
 
 def run_sky(frames=(), out_dir=None, settings=None, *, stokes=None, max_fit_samples: int = 20_000, seed: int = 0,
-            **options) -> dict:
+            warnings=(), **options) -> dict:
     """Compare a sky bracket (or a ``stokes.nc``, or mosaic frames) with the clear-sky model.
 
     Parameters
@@ -155,6 +165,9 @@ def run_sky(frames=(), out_dir=None, settings=None, *, stokes=None, max_fit_samp
     settings : polarsky.Settings, optional
     stokes : dict, optional
         Products already in memory (see :func:`stokes_products`).
+    warnings : sequence of str
+        Warnings raised while ``stokes`` was made (listed first under ``warnings``, as when
+        the products are made here).
     **options
         Any setting by name: time, place, lens and orientation (``when``, ``lat``, ``lon``,
         ``hfov_deg``, ``yaw_deg``, ...), the sky comparison (``model``, ``sky_mask``,
@@ -184,7 +197,7 @@ def run_sky(frames=(), out_dir=None, settings=None, *, stokes=None, max_fit_samp
             before = set(stage.outputs())
             result = compare(products, geom, info, stage.dir, settings=settings, model=model,
                              max_fit_samples=max_fit_samples, seed=seed, inputs=inputs)
-            result["warnings"] = caught.messages()
+            result["warnings"] = list(dict.fromkeys([*warnings, *caught.messages()]))
             result["outputs"] = sorted(set(stage.outputs()) - before | {"sky.json"})
             result = jsonable(result)
             write_json(stage.path("sky.json"), result)

@@ -7,13 +7,15 @@ the statistics sinks take the blocks, and one summary builder writes ``summary.j
 
 from __future__ import annotations
 
+import contextlib
 import time
 import warnings
 
 from ..errors import PolarskyWarning
 from ._common import check_estimate, collect_warnings, load_calibration, open_source, resolve_settings
 
-__all__ = ["stokes_from_files", "stokes_from_mosaic_values", "run_stokes", "output_bytes", "RESIDUAL_WARNING"]
+__all__ = ["stokes_from_files", "stokes_from_mosaic_values", "run_stokes", "StokesOutputs", "output_bytes",
+           "RESIDUAL_WARNING"]
 
 #: Median relative fit residual above which the frames are said to disagree.
 RESIDUAL_WARNING = 0.03
@@ -104,13 +106,8 @@ def run_stokes(frames=(), out_dir=None, settings=None, *, progress: bool = False
     dict
         The summary (also written to ``summary.json``; docs/schemas/summary.schema.json).
     """
-    from ..estimate.runner import block_rows, run_blocks
-    from ..estimate.sinks import PreviewSink, StatsSink
-    from ..write.jsonio import write_json
-    from ..write.netcdf import StokesWriter
-    from ..write.quantize import precision_for
+    from ..estimate.runner import run_blocks
     from ..write.stage import check_destination, open_stage
-    from ..write.summary import build_summary
 
     from .._shared.prefetch import prefetch_modules
 
@@ -120,55 +117,122 @@ def run_stokes(frames=(), out_dir=None, settings=None, *, progress: bool = False
     prefetch_modules("h5py")  # for stokes.nc, while the frames are decoded
     with collect_warnings() as caught:
         op = open_source(frames, settings)
-        src = op.source
         with open_stage(out_dir, command="stokes", inputs=op.inputs) as stage:
-            out = settings.output
-            names = [n for n in _names(src.n_analyzers) if out.keep is None or n in out.keep]
-            stage.reserve(output_bytes(src.shape, len(src.channels), len(names), pictures=out.pictures,
-                                       compressed=out.precision != "full"))
-            before = set(stage.outputs())
-            rows = block_rows(src.shape, len(src.channels))
-            writer = StokesWriter(stage.path("stokes.nc"), shape=src.shape, channels=src.channels, rows=rows,
-                                  names=names, attrs={}, precision=precision_for(out.precision),
-                                  full_scale=src.value_full_scale)
-            preview = PreviewSink(src.shape)
-            stats = StatsSink(src.shape, len(src.channels), compiled=src.compiled)
-            try:
-                info = run_blocks(src, op.noise, [_Timed(writer), preview, stats], rows=rows, progress=progress)
-                facts = _facts_after(op, info)
-                check_estimate(info, settings, src.channels)
-                t1 = time.perf_counter()
-                writer.set_attrs({**facts, "precision": out.precision})
-                writer.commit()
-            except BaseException:
-                writer.abort()
-                raise
-            t_nc = time.perf_counter() - t1 + writer.seconds
-            t2 = time.perf_counter()
-            if settings.output.pictures:
-                from ..write.pictures.maps import stokes_pictures
-
-                stokes_pictures(preview.finish(), stage.dir, channels=src.channels, step=preview.step,
-                                polarizer=facts["polarizer"])
-            t_pics = time.perf_counter() - t2
-            stat = stats.summary(src.channels)
-            med = stat.get("median_relative_residual")
-            if med is not None and med > RESIDUAL_WARNING:
-                hint = "" if settings.estimate.align or facts["source_kind"] != "bracket" else ", or try --align"
-                warnings.warn(f"the analyzer intensities disagree with the filter model: median fit residual "
-                              f"{med * 100:.1f}% of S0 (99th percentile {stat['p99_relative_residual'] * 100:.1f}%); "
-                              f"see {'residual.png' if settings.output.pictures else 'residual in stokes.nc'} for "
-                              f"motion, a passing cloud or exposure drift{hint}",
-                              PolarskyWarning, stacklevel=2)
-            timing = {"read": op.timing.get("read"), "align": op.timing.get("align"), "estimate": info["estimate_s"],
-                      "write_netcdf": t_nc, "write_pictures": t_pics}
-            timing = {k: (None if v is None else round(v, 4)) for k, v in timing.items()}
-            timing["total"] = round(time.perf_counter() - t_start, 4)
-            summary = build_summary(**facts, **stat, warnings=caught.messages(), timing_s=timing,
-                                    outputs=sorted(set(stage.outputs()) - before | {"summary.json"}))
-            write_json(stage.path("summary.json"), summary)
+            job = StokesOutputs(op, stage, settings)
+            with job.writing():
+                info = run_blocks(op.source, op.noise, job.sinks, rows=job.rows, progress=progress)
+                job.commit(info)
+            summary = job.finish(caught, t_start=t_start)
             stage.publish()
     return summary
+
+
+class StokesOutputs:
+    """What ``polarsky stokes`` makes of an opened input: its sinks, then its files.
+
+    The one implementation of the Stokes step, for the command and for a batch bracket (which
+    feeds the same row blocks to the sinks of other steps too).  Use::
+
+        job = StokesOutputs(op, stage, settings)
+        with job.writing():                 # removes the partial stokes.nc on any error
+            info = run_blocks(op.source, op.noise, job.sinks, rows=job.rows)
+            job.commit(info)                # stokes.nc complete
+        summary = job.finish(caught, t_start=t0)   # pictures and summary.json
+
+    Parameters
+    ----------
+    op : polarsky.tasks._common.Opened
+    stage : OutputStage or Into
+        Where the files go (``summary.json`` lists the files this step adds to it).
+    settings : polarsky.Settings
+    write_threads : int, optional
+        Threads that compress ``stokes.nc`` chunks (default: the writer's; 0 = in the
+        calling thread, for a worker process that has one core to itself).
+    """
+
+    def __init__(self, op, stage, settings, *, write_threads: int | None = None):
+        from ..estimate.runner import block_rows
+        from ..estimate.sinks import PreviewSink, StatsSink
+        from ..write.netcdf import StokesWriter
+        from ..write.quantize import precision_for
+
+        self.op, self.stage, self.settings = op, stage, settings
+        src = op.source
+        out = settings.output
+        names = [n for n in _names(src.n_analyzers) if out.keep is None or n in out.keep]
+        stage.reserve(output_bytes(src.shape, len(src.channels), len(names), pictures=out.pictures,
+                                   compressed=out.precision != "full"))
+        self.before = set(stage.outputs())
+        self.rows = block_rows(src.shape, len(src.channels))
+        self.writer = StokesWriter(stage.path("stokes.nc"), shape=src.shape, channels=src.channels, rows=self.rows,
+                                   names=names, attrs={}, precision=precision_for(out.precision),
+                                   full_scale=src.value_full_scale, threads=write_threads)
+        #: decimated products for the pictures (None with pictures off)
+        self.preview = PreviewSink(src.shape) if out.pictures else None
+        self.stats = StatsSink(src.shape, len(src.channels), compiled=src.compiled)
+        #: the sinks to feed the row blocks to
+        self.sinks = [_Timed(self.writer)] + ([self.preview] if self.preview is not None else []) + [self.stats]
+        #: RGB arrays of the pictures drawn (name -> (h, w, 3) uint8), after :meth:`finish`
+        self.pictures: dict = {}
+        self.facts: dict = {}
+        self._info: dict = {}
+        self._t_nc = 0.0
+
+    @contextlib.contextmanager
+    def writing(self):
+        """Abort ``stokes.nc`` (no partial file) if the block stays unfinished."""
+        try:
+            yield self
+        except BaseException:
+            self.writer.abort()
+            raise
+
+    def commit(self, info: dict) -> dict:
+        """Check the estimate, complete ``stokes.nc`` after the runner's ``info``; return the
+        facts of the estimate."""
+        self._info = info
+        self.facts = _facts_after(self.op, info)
+        check_estimate(info, self.settings, self.op.source.channels)
+        t1 = time.perf_counter()
+        self.writer.set_attrs({**self.facts, "precision": self.settings.output.precision})
+        self.writer.commit()
+        self._t_nc = time.perf_counter() - t1 + self.writer.seconds
+        return self.facts
+
+    def finish(self, caught, *, t_start: float) -> dict:
+        """Draw the pictures, warn about a large residual, write ``summary.json``; return the summary.
+
+        ``caught`` holds the run's warnings (:func:`polarsky.tasks._common.collect_warnings`).
+        """
+        from ..write.jsonio import write_json
+        from ..write.summary import build_summary
+
+        op, settings, stage, facts, info = self.op, self.settings, self.stage, self.facts, self._info
+        src = op.source
+        t2 = time.perf_counter()
+        if self.preview is not None:
+            from ..write.pictures.maps import stokes_pictures
+
+            stokes_pictures(self.preview.finish(), stage.dir, channels=src.channels, step=self.preview.step,
+                            polarizer=facts["polarizer"], keep=self.pictures)
+        t_pics = time.perf_counter() - t2
+        stat = self.stats.summary(src.channels)
+        med = stat.get("median_relative_residual")
+        if med is not None and med > RESIDUAL_WARNING:
+            hint = "" if settings.estimate.align or facts["source_kind"] != "bracket" else ", or try --align"
+            warnings.warn(f"the analyzer intensities disagree with the filter model: median fit residual "
+                          f"{med * 100:.1f}% of S0 (99th percentile {stat['p99_relative_residual'] * 100:.1f}%); "
+                          f"see {'residual.png' if settings.output.pictures else 'residual in stokes.nc'} for "
+                          f"motion, a passing cloud or exposure drift{hint}",
+                          PolarskyWarning, stacklevel=3)
+        timing = {"read": op.timing.get("read"), "align": op.timing.get("align"), "estimate": info["estimate_s"],
+                  "write_netcdf": self._t_nc, "write_pictures": t_pics}
+        timing = {k: (None if v is None else round(v, 4)) for k, v in timing.items()}
+        timing["total"] = round(time.perf_counter() - t_start, 4)
+        summary = build_summary(**facts, **stat, warnings=caught.messages(), timing_s=timing,
+                                outputs=sorted(set(stage.outputs()) - self.before | {"summary.json"}))
+        write_json(stage.path("summary.json"), summary)
+        return summary
 
 
 def output_bytes(shape, n_channels: int, n_maps: int, *, pictures: bool = True, compressed: bool = True) -> int:

@@ -180,6 +180,26 @@ class NetCDFFile:
         return False
 
 
+class _Done:
+    """A finished result with the interface of a ``concurrent.futures.Future``."""
+
+    def __init__(self, value):
+        self._value = value
+
+    def result(self):
+        return self._value
+
+
+class _InlinePool:
+    """Runs each job at once in the calling thread (the executor interface :class:`StokesWriter` uses)."""
+
+    def submit(self, fn, *args):
+        return _Done(fn(*args))
+
+    def shutdown(self, wait=True, cancel_futures=False):
+        pass
+
+
 class StokesWriter:
     """Write a Stokes result (``stokes.nc``) block by block, one compressed chunk per block.
 
@@ -200,9 +220,13 @@ class StokesWriter:
         listed are stored exactly.
     full_scale : float
         Full scale of the Stokes values (the rules that are relative to it).
+    threads : int, optional
+        Threads that quantize and compress chunks while the caller computes the next block
+        (default: up to 4, at most the CPU count); 0 compresses in the calling thread (a
+        batch worker process that has one core to itself gains nothing from threads).
     """
 
-    def __init__(self, path, *, shape, channels, names, rows, attrs, precision=None, full_scale=1.0):
+    def __init__(self, path, *, shape, channels, names, rows, attrs, precision=None, full_scale=1.0, threads=None):
         h, w = shape
         self.shape = (len(channels), h, w)
         self.rows = int(rows)
@@ -224,7 +248,8 @@ class StokesWriter:
                 extra["_QuantizeBitRoundNumberOfSignificantBits"] = np.int32(rule.bits)
             self.file.variable(name, ("channel", "y", "x"), "f4", units=units, long_name=long_name, chunks=chunks,
                                fill=np.float32(np.nan), attrs=extra)
-        self._pool = ThreadPoolExecutor(max_workers=max(1, min(4, os.cpu_count() or 1)))
+        n_threads = max(1, min(4, os.cpu_count() or 1)) if threads is None else int(threads)
+        self._pool = ThreadPoolExecutor(max_workers=n_threads) if n_threads > 0 else _InlinePool()
         self._pending: list = []
 
     def _chunk(self, name, a):

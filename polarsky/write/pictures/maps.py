@@ -17,7 +17,7 @@ from ..._shared.threads import thread_map
 from ...palette import AXIS_LABEL_X, AXIS_LABEL_Y, INVALID_NOTE
 from .canvas import colour_lut, colourize, compose, template, write_png
 
-__all__ = ["save_map_png", "stokes_pictures", "composite_rgb", "MAP_KINDS", "DOLP_FULL_SATURATION"]
+__all__ = ["save_map_png", "map_picture", "stokes_pictures", "composite_rgb", "MAP_KINDS", "DOLP_FULL_SATURATION"]
 
 DOLP_FULL_SATURATION = 0.6
 #: kind -> (colour map, vmin, vmax, key ticks); None = from the data
@@ -71,7 +71,12 @@ def _nice_ceiling(x: float) -> float:
 
 
 def save_map_png(path, array, *, kind: str, title: str, valid=None, label: str = "", step: int = 1) -> Path:
-    """Save a scalar map with its colour key; invalid pixels checkered.
+    """Save a scalar map with its colour key (:func:`map_picture`); invalid pixels checkered."""
+    return write_png(path, map_picture(array, kind=kind, title=title, valid=valid, label=label, step=step))
+
+
+def map_picture(array, *, kind: str, title: str, valid=None, label: str = "", step: int = 1) -> np.ndarray:
+    """The picture of a scalar map with its colour key, (H, W, 3) uint8; invalid pixels checkered.
 
     Parameters
     ----------
@@ -91,7 +96,7 @@ def save_map_png(path, array, *, kind: str, title: str, valid=None, label: str =
     params = {"shape": list(a.shape), "step": int(step), "title": title, "label": label, "cmap": cmap,
               "vmin": float(vmin), "vmax": float(vmax), "ticks": ticks}
     tpl = template("map", params, _draw_map)
-    return write_png(path, compose(tpl, colourize(a, vmin, vmax, colour_lut(cmap), ok)))
+    return compose(tpl, colourize(a, vmin, vmax, colour_lut(cmap), ok))
 
 
 def composite_rgb(s0, dolp, aolp_deg, valid, *, dolp_full: float = DOLP_FULL_SATURATION) -> np.ndarray:
@@ -136,12 +141,14 @@ def _draw_composite(p):
     return fig, ax
 
 
-def stokes_pictures(prev: dict, out_dir, *, channels, step: int = 1, polarizer: str = "front") -> list:
+def stokes_pictures(prev: dict, out_dir, *, channels, step: int = 1, polarizer: str = "front", keep=None) -> list:
     """Write ``dolp.png``, ``aolp.png``, ``polarization.png`` (and ``residual.png``).
 
     ``prev`` holds decimated (C, h, w) arrays from the preview sink; colour channels are
     combined by summing their Stokes vectors.  ``polarizer`` ("front" for a bracket, "sensor"
-    for a mosaic camera) words the residual picture.
+    for a mosaic camera) words the residual picture.  ``keep``, a dict, receives each
+    picture's pixels under its file name ((H, W, 3) uint8), for callers that show them again
+    (the batch report's thumbnails) without decoding the files.
     """
     from ...core.stokes import dolp_aolp
 
@@ -151,29 +158,36 @@ def stokes_pictures(prev: dict, out_dir, *, channels, step: int = 1, polarizer: 
     dolp, aolp = dolp_aolp(s)
     name = "" if channels == ["L"] else " (R+G+B)"
 
+    def dolp_map():
+        return "dolp.png", map_picture(dolp, kind="dolp", valid=valid, step=step,
+                                       title=f"Degree of linear polarization{name}", label="DoLP (0..1)")
+
+    def aolp_map():
+        return "aolp.png", map_picture(aolp, kind="aolp", valid=valid, step=step,
+                                       title=f"Angle of linear polarization{name}",
+                                       label="AoLP (deg from image +x, counter-clockwise)")
+
     def composite():
         params = {"shape": list(valid.shape), "step": int(step), "dolp_full": DOLP_FULL_SATURATION,
                   "title": f"Polarization{name}: hue = AoLP, saturation = DoLP, brightness = S0"}
         tpl = template("composite", params, _draw_composite)
-        return write_png(out_dir / "polarization.png", compose(tpl, composite_rgb(s[0], dolp, aolp, valid)))
+        return "polarization.png", compose(tpl, composite_rgb(s[0], dolp, aolp, valid))
 
     def residual():
         with np.errstate(invalid="ignore", divide="ignore"):
             rel = np.max(prev["residual"] / prev["S0"], axis=0) * 100
-        return save_map_png(out_dir / "residual.png", rel, kind="residual", valid=valid, step=step,
-                            title=("Least-squares residual: where frames disagree (motion, clouds, drift)"
-                                   if polarizer == "front" else
-                                   "Least-squares residual: interpolation error at edges, defects"),
-                            label="RMS residual / S0 (%)")
+        return "residual.png", map_picture(
+            rel, kind="residual", valid=valid, step=step,
+            title=("Least-squares residual: where frames disagree (motion, clouds, drift)" if polarizer == "front" else
+                   "Least-squares residual: interpolation error at edges, defects"),
+            label="RMS residual / S0 (%)")
 
-    jobs = [lambda: save_map_png(out_dir / "dolp.png", dolp, kind="dolp", valid=valid, step=step,
-                                 title=f"Degree of linear polarization{name}", label="DoLP (0..1)"),
-            lambda: save_map_png(out_dir / "aolp.png", aolp, kind="aolp", valid=valid, step=step,
-                                 title=f"Angle of linear polarization{name}",
-                                 label="AoLP (deg from image +x, counter-clockwise)"),
-            composite]
-    if "residual" in prev:
-        jobs.append(residual)
-    paths = thread_map(lambda job: job(), jobs)  # colouring and encoding release the GIL
-    return paths
+    def draw(job):
+        file_name, rgb = job()
+        return file_name, rgb, write_png(out_dir / file_name, rgb)
 
+    jobs = [dolp_map, aolp_map, composite] + ([residual] if "residual" in prev else [])
+    made = thread_map(draw, jobs)  # colouring and encoding release the GIL
+    if keep is not None:
+        keep.update({file_name: rgb for file_name, rgb, _ in made})
+    return [path for _, _, path in made]
