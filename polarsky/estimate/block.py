@@ -106,20 +106,27 @@ def smooth_variance(var: np.ndarray) -> np.ndarray:
     """
     r = SMOOTH_RADIUS
     finite = np.isfinite(var)
-    v0 = np.where(finite, var, np.float32(0)).astype(np.float32)
-    cnt = finite.astype(np.float32)
+    every = bool(finite.all())
+    # every value finite: each window counts (2r+1)^2 values (the padding repeats finite ones)
+    v0 = var.astype(np.float32) if every else np.where(finite, var, np.float32(0)).astype(np.float32)
     vp = np.pad(v0, r, mode="symmetric")
-    cp = np.pad(cnt, r, mode="symmetric")
     h, w = var.shape
     num = np.zeros((h + 2 * r, w), np.float32)
-    den = np.zeros((h + 2 * r, w), np.float32)
     for dx in range(2 * r + 1):
         num += vp[:, dx:dx + w]
-        den += cp[:, dx:dx + w]
     num2 = np.zeros((h, w), np.float32)
-    den2 = np.zeros((h, w), np.float32)
     for dy in range(2 * r + 1):
         num2 += num[dy:dy + h]
+    if every:
+        num2 /= np.float32((2 * r + 1) ** 2)
+        return num2
+    cnt = finite.astype(np.float32)
+    cp = np.pad(cnt, r, mode="symmetric")
+    den = np.zeros((h + 2 * r, w), np.float32)
+    for dx in range(2 * r + 1):
+        den += cp[:, dx:dx + w]
+    den2 = np.zeros((h, w), np.float32)
+    for dy in range(2 * r + 1):
         den2 += den[dy:dy + h]
     with np.errstate(invalid="ignore", divide="ignore"):
         return np.where(finite, num2 / den2, np.float32(np.nan)).astype(np.float32)

@@ -94,13 +94,16 @@ class StatsSink:
         self.total += v[0].size
         for ci in range(v.shape[0]):
             m = v[ci]
-            self.valid[ci] += int(np.count_nonzero(m))
+            n = int(np.count_nonzero(m))
+            self.valid[ci] += n
             if self.compiled:  # one parallel pass instead of a copy per product
                 from ..core.kernels.dispatch import masked_sums
 
                 sums = np.zeros(len(self.SUMMED))
                 masked_sums(np.ascontiguousarray(m).reshape(-1),
                             tuple(np.ascontiguousarray(products[k][ci]).reshape(-1) for k in self.SUMMED), sums)
+            elif n == m.size:  # every pixel valid: a[m] would hold all of a, in the same (row-major) order
+                sums = [float(np.sum(products[k][ci].ravel(), dtype=np.float64)) for k in self.SUMMED]
             else:
                 sums = [float(np.sum(products[k][ci][m], dtype=np.float64)) for k in self.SUMMED]
             self.sum_dolp[ci] += sums[0]
