@@ -223,11 +223,16 @@ def test_worker_killed_mid_task_the_batch_still_completes(client, tmp_path):
     assert killed not in client.run(os.getpid).values()
 
 
-def test_local_cluster_is_loopback_only_with_scratch_inside_out(tmp_path):
+def test_local_cluster_is_loopback_only_with_scratch_inside_out(tmp_path, monkeypatch):
     import psutil
 
+    # (a cluster started earlier in this process with dask's defaults leaves this variable here)
+    monkeypatch.delenv("MALLOC_TRIM_THRESHOLD_", raising=False)
     scratch = tmp_path / "out" / runner.SCRATCH_DIR
     with runner.batch_client(workers=1, scheduler=None, scratch=scratch) as c:
+        env = c.run(lambda: {k: os.environ.get(k) for k in ("NUMBA_NUM_THREADS", "MALLOC_TRIM_THRESHOLD_")})
+        # one kernel thread per worker; the C library's allocator as in a plain process
+        assert list(env.values()) == [{"NUMBA_NUM_THREADS": "1", "MALLOC_TRIM_THRESHOLD_": None}]
         info = c.scheduler_info()
         assert info["address"].startswith("tcp://127.0.0.1:")
         assert all(a.startswith("tcp://127.0.0.1:") for a in info["workers"])
