@@ -167,48 +167,49 @@ def _run(bracket: Bracket, settings, tmp: Path, *, sky: bool, t0: float) -> dict
         t_start = time.perf_counter()
         op = open_source(frames, settings)
         src = op.source
-        # one core per worker process: compress stokes.nc in this thread
-        job = StokesOutputs(op, dest, settings, write_threads=0)
-        sinks = list(job.sinks)
-        adv = memory = None
-        if advise:
-            adv = AdviceOutputs(op, settings, pictures=settings.output.pictures)
-            sinks += adv.sinks
-        if sky and not mosaic:  # a mosaic's sky step reads its stokes.nc, as 'polarsky sky' would
-            from ..estimate.sinks import MemorySink
-            from ..tasks.sky import SKY_PRODUCTS
+        with dest:  # a failed write becomes the one-line error naming the bracket's folder
+            # one core per worker process: compress stokes.nc in this thread
+            job = StokesOutputs(op, dest, settings, write_threads=0)
+            sinks = list(job.sinks)
+            adv = memory = None
+            if advise:
+                adv = AdviceOutputs(op, settings, pictures=settings.output.pictures)
+                sinks += adv.sinks
+            if sky and not mosaic:  # a mosaic's sky step reads its stokes.nc, as 'polarsky sky' would
+                from ..estimate.sinks import MemorySink
+                from ..tasks.sky import SKY_PRODUCTS
 
-            memory = MemorySink(src.shape, len(src.channels), SKY_PRODUCTS)
-            sinks.append(memory)
-        with job.writing():
-            info = run_blocks(src, op.noise, sinks, rows=job.rows)
-            read_warnings = caught.messages()  # what a step reading the frames itself would have seen so far
-            job.commit(info)
-        summary = job.finish(caught, t_start=t_start)
-        values = {"mean_dolp": _mean(summary["mean_dolp"])}
-        if adv is not None:
-            with collect_warnings() as seen:
-                adv.check_estimate(info)
-            advice = adv.write(dest, adv.result(list(dict.fromkeys(read_warnings + seen.messages()))))
-            values["best_angle_deg"] = advice["best_angle_deg"]
-            values["reduction_stops"] = advice["reduction_stops"]
-        if sky:
-            from ..tasks.sky import products_in_memory, run_sky
+                memory = MemorySink(src.shape, len(src.channels), SKY_PRODUCTS)
+                sinks.append(memory)
+            with job.writing():
+                info = run_blocks(src, op.noise, sinks, rows=job.rows)
+                read_warnings = caught.messages()  # what a step reading the frames itself would have seen so far
+                job.commit(info)
+            summary = job.finish(caught, t_start=t_start)
+            values = {"mean_dolp": _mean(summary["mean_dolp"])}
+            if adv is not None:
+                with collect_warnings() as seen:
+                    adv.check_estimate(info)
+                advice = adv.write(dest, adv.result(list(dict.fromkeys(read_warnings + seen.messages()))))
+                values["best_angle_deg"] = advice["best_angle_deg"]
+                values["reduction_stops"] = advice["reduction_stops"]
+            if sky:
+                from ..tasks.sky import products_in_memory, run_sky
 
-            if mosaic:
-                # a mosaic's sky step reads its Stokes result (its frame still gives the EXIF and the inputs named)
-                from ..read.stokes_file import read_stokes
+                if mosaic:
+                    # a mosaic's sky step reads its Stokes result (its frame still gives the EXIF and the inputs named)
+                    from ..read.stokes_file import read_stokes
 
-                result = run_sky(frames, dest, settings, stokes=read_stokes(tmp / "stokes.nc"))
-            else:
-                with collect_warnings() as seen:  # the check the sky step's own pass would make
-                    check_estimate(info, settings, src.channels)
-                result = run_sky(frames, dest, settings, stokes=products_in_memory(memory, op),
-                                 warnings=list(dict.fromkeys(read_warnings + seen.messages())))
-            values["rms_dolp_residual"] = result["rms_dolp_residual"]
-            values["rms_aolp_residual_deg"] = result["rms_aolp_residual_deg"]
-        make_thumbnails(tmp, frames, px=settings.report.thumbnail_px, best_angle_deg=values.get("best_angle_deg"),
-                        pictures=job.pictures, first_frame=_first_frame(op))
+                    result = run_sky(frames, dest, settings, stokes=read_stokes(tmp / "stokes.nc"))
+                else:
+                    with collect_warnings() as seen:  # the check the sky step's own pass would make
+                        check_estimate(info, settings, src.channels)
+                    result = run_sky(frames, dest, settings, stokes=products_in_memory(memory, op),
+                                     warnings=list(dict.fromkeys(read_warnings + seen.messages())))
+                values["rms_dolp_residual"] = result["rms_dolp_residual"]
+                values["rms_aolp_residual_deg"] = result["rms_aolp_residual_deg"]
+            make_thumbnails(tmp, frames, px=settings.report.thumbnail_px, best_angle_deg=values.get("best_angle_deg"),
+                            pictures=job.pictures, first_frame=_first_frame(op))
         warn_text = " | ".join(sorted({one_line(m) for m in caught.messages()}))
     row = make_row(bracket, status="done", warnings=warn_text, **values)
     if not row["analyzer_angles_deg"]:

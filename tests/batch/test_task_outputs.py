@@ -194,3 +194,36 @@ def test_mosaic_frame_thumbnail_from_memory_looks_like_the_file(tmp_path):
     assert a.shape == b.shape
     assert np.abs(a - b).max() <= 2  # rounding of the display stretch only
 
+
+
+def test_advice_equals_the_command_when_pixels_are_masked_for_a_dolp_above_one(tmp_path):
+    """The Stokes step masks pixels whose DoLP is above 1 (no light is more than fully
+    polarized); the advice's own pass computes no DoLP and keeps them in the region sums. The
+    batch's shared pass gives the advice the blocks before that check, so its advice.json is
+    the command's."""
+    import tifffile
+
+    from polarsky.tasks.advise import run_advise
+    from polarsky.tasks.stokes import run_stokes
+
+    root = tmp_path / "in"
+    frames = write_bracket(root, "pond", height=48, width=64, seed=4)
+    # a 3x3 patch inside the region whose frames say I(0) = I(45) = 0.9, I(90) = I(135) = 0.01:
+    # S1 = S2 = 0.89 with S0 = 0.91, a DoLP of 1.38 that the frames fit exactly
+    for f, level in zip(frames, (0.9, 0.9, 0.01, 0.01)):  # files at 0, 45, 90, 135 deg
+        img = tifffile.imread(f)
+        img[18:21, 20:23] = round(level * 65535)
+        tifffile.imwrite(f, img)
+    settings = Settings.from_options({"region": REGION, "pictures": False})
+    (row,) = _process(root, tmp_path / "out", settings)
+    assert row["status"] == "done", row["error"]
+    folder = tmp_path / "out" / row["name"]
+    paths = [str(f) for f in frames]
+    with pytest.warns(PolarskyWarning, match="DoLP above 1"):
+        run_stokes(paths, tmp_path / "stokes", angles="0,45,90,135", pictures=False)
+    command = run_advise(paths, tmp_path / "advise", angles="0,45,90,135", region=REGION, pictures=False)
+    summary = _json(folder / "summary.json")
+    assert any("DoLP above 1" in w for w in summary["warnings"])
+    assert _without_timing(summary) == _without_timing(_json(tmp_path / "stokes" / "summary.json"))
+    batch = _json(folder / "advice.json")
+    assert batch == _json(tmp_path / "advise" / "advice.json") == json.loads(json.dumps(command))
