@@ -37,6 +37,8 @@ class PreviewSink:
     """Every ``step``-th row and column of the products and of the first frame, for pictures."""
 
     NAMES = ("S0", "S1", "S2", "dolp", "dolp_unbiased", "aolp", "valid", "residual", "sigma_dolp", "sigma_aolp")
+    #: fed the blocks before the runner's checks (:func:`polarsky.estimate.runner.run_blocks`)
+    before_checks = False
 
     def __init__(self, shape, max_side: int = 1024, names=None):
         self.step = preview_step(shape, max_side)
@@ -49,8 +51,9 @@ class PreviewSink:
         s = self.step
         sel = slice((-r0) % s, r1 - r0, s)
         # a decimated copy frees the block; at full resolution the block's own arrays are kept
-        # (the runner makes new ones for every block and never writes them again)
-        keep = (lambda a: a[:, sel, ::s].copy()) if s > 1 else (lambda a: a)
+        # (the runner makes new ones for every block and never writes them again), unless this
+        # sink is fed before the runner's checks, which mask the block in place afterwards
+        keep = (lambda a: a[:, sel, ::s].copy()) if s > 1 or self.before_checks else (lambda a: a)
         for name in self.NAMES:
             if name in products and name in self.needs:
                 self._parts.setdefault(name, []).append(keep(products[name]))

@@ -214,16 +214,39 @@ def test_advice_equals_the_command_when_pixels_are_masked_for_a_dolp_above_one(t
         img = tifffile.imread(f)
         img[18:21, 20:23] = round(level * 65535)
         tifffile.imwrite(f, img)
-    settings = Settings.from_options({"region": REGION, "pictures": False})
+    settings = Settings.from_options({"region": REGION, "pictures": True})
     (row,) = _process(root, tmp_path / "out", settings)
     assert row["status"] == "done", row["error"]
     folder = tmp_path / "out" / row["name"]
     paths = [str(f) for f in frames]
     with pytest.warns(PolarskyWarning, match="DoLP above 1"):
-        run_stokes(paths, tmp_path / "stokes", angles="0,45,90,135", pictures=False)
-    command = run_advise(paths, tmp_path / "advise", angles="0,45,90,135", region=REGION, pictures=False)
+        run_stokes(paths, tmp_path / "stokes", angles="0,45,90,135")
+    command = run_advise(paths, tmp_path / "advise", angles="0,45,90,135", region=REGION)
+    for name in command["outputs"]:  # the advice pictures show the patch as the command's do
+        assert (folder / name).read_bytes() == (tmp_path / "advise" / name).read_bytes(), name
     summary = _json(folder / "summary.json")
     assert any("DoLP above 1" in w for w in summary["warnings"])
     assert _without_timing(summary) == _without_timing(_json(tmp_path / "stokes" / "summary.json"))
     batch = _json(folder / "advice.json")
     assert batch == _json(tmp_path / "advise" / "advice.json") == json.loads(json.dumps(command))
+
+
+def test_worker_loads_the_kernels_before_a_bracket_that_uses_them(tmp_path, monkeypatch):
+    """A bracket of at least LOADED_MIN_VALUES values (pixels times frames) takes the compiled
+    path in a worker whatever ran there before: the worker loads the kernels first."""
+    import sys
+
+    from polarsky.batch.task import _load_kernels
+    from polarsky.estimate.runner import LOADED_MIN_VALUES
+
+    loaded = []
+    monkeypatch.setattr("importlib.import_module", lambda name: loaded.append(name))
+    small = write_bracket(tmp_path / "small", "a", height=48, width=64)
+    side = int(np.ceil(np.sqrt(LOADED_MIN_VALUES / 4)))
+    large = write_bracket(tmp_path / "large", "b", height=side, width=side)
+    settings = Settings.from_options({})
+    for root in (tmp_path / "small", tmp_path / "large"):
+        (b,) = runner.list_brackets(root, settings=settings)
+        _load_kernels(b)
+    assert loaded == ["polarsky.core.kernels.dispatch"]
+    assert len(small) == len(large) == 4 and "polarsky" in sys.modules
