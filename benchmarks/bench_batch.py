@@ -35,7 +35,7 @@ import os
 
 # the direct loop runs with the one thread per process a batch worker has (runner.WORKER_ENV);
 # set before numpy is imported, so its BLAS follows too
-for _k in ("NUMBA_NUM_THREADS", "OMP_NUM_THREADS", "MKL_NUM_THREADS", "OPENBLAS_NUM_THREADS"):
+for _k in ("NUMBA_NUM_THREADS", "OMP_NUM_THREADS", "MKL_NUM_THREADS", "OPENBLAS_NUM_THREADS", "POLARSKY_THREADS"):
     os.environ[_k] = "1"
 
 import argparse  # noqa: E402

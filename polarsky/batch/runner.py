@@ -35,7 +35,8 @@ SCRATCH_DIR = ".polarsky-scratch"
 #: One worker process per core, one thread each: keep the compiled kernels single-threaded
 #: too (dask already does this for OpenMP/BLAS), or the workers fight over the cores.
 WORKER_ENV = {"NUMBA_NUM_THREADS": "1", "OMP_NUM_THREADS": "1", "MKL_NUM_THREADS": "1",
-              "OPENBLAS_NUM_THREADS": "1", "DASK_DISTRIBUTED__WORKER__PROFILE__ENABLED": "False"}
+              "OPENBLAS_NUM_THREADS": "1", "POLARSKY_THREADS": "1",
+              "DASK_DISTRIBUTED__WORKER__PROFILE__ENABLED": "False"}
 #: Quieter housekeeping: the default 20 ms event-loop ticks, 10 ms sampling profiler and
 #: 0.5 s system monitor cost about a tenth of a core while brackets take tenths of a second.
 WORKER_CONFIG = {

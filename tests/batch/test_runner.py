@@ -230,9 +230,10 @@ def test_local_cluster_is_loopback_only_with_scratch_inside_out(tmp_path, monkey
     monkeypatch.delenv("MALLOC_TRIM_THRESHOLD_", raising=False)
     scratch = tmp_path / "out" / runner.SCRATCH_DIR
     with runner.batch_client(workers=1, scheduler=None, scratch=scratch) as c:
-        env = c.run(lambda: {k: os.environ.get(k) for k in ("NUMBA_NUM_THREADS", "MALLOC_TRIM_THRESHOLD_")})
-        # one kernel thread per worker; the C library's allocator as in a plain process
-        assert list(env.values()) == [{"NUMBA_NUM_THREADS": "1", "MALLOC_TRIM_THRESHOLD_": None}]
+        env = c.run(lambda: {k: os.environ.get(k) for k in ("NUMBA_NUM_THREADS", "POLARSKY_THREADS",
+                                                             "MALLOC_TRIM_THRESHOLD_")})
+        # one thread per worker (kernels, polarsky's pool); the C library's allocator as in a plain process
+        assert list(env.values()) == [{"NUMBA_NUM_THREADS": "1", "POLARSKY_THREADS": "1", "MALLOC_TRIM_THRESHOLD_": None}]
         info = c.scheduler_info()
         assert info["address"].startswith("tcp://127.0.0.1:")
         assert all(a.startswith("tcp://127.0.0.1:") for a in info["workers"])
