@@ -153,6 +153,14 @@ def _warm_worker():
     return os.getpid()
 
 
+def batch_once(root: Path, out: Path, settings, client, n: int) -> None:
+    """``run_batch`` of ``root`` into ``out`` on ``client``; every one of the ``n`` brackets must be done."""
+    from polarsky.batch.runner import run_batch
+
+    result = run_batch(root, out, settings=settings, client=client)
+    assert result["done"] == n, [r["error"] for r in result["rows"] if r["error"]]
+
+
 def direct_loop(brackets, settings, out: Path, advise: bool):
     """The commands' task functions, one bracket after the other, with the batch's options."""
     from polarsky.batch.task import bracket_settings
@@ -205,16 +213,10 @@ def main(argv=None) -> int:
         print(f"\n== target 7: {n} brackets of 4 frames {width}x{height} (16-bit TIFF)"
               f"{', with advice for region ' + REGION if a.region else ''} ==")
 
-        # the direct library loop (warm: one bracket first, so imports and picture templates are loaded)
-        direct_loop(brackets[:1], on, work / "direct-warm", a.region)
-        direct = {}
-        for pictures, settings in (("on", on), ("off", off)):
-            direct[pictures] = Timed(f"direct {pictures}")
-            for rep in range(a.repeat):
-                direct[pictures].run(lambda: direct_loop(brackets, settings, work / f"direct-{pictures}-{rep}",
-                                                         a.region))
-            print(f"direct library loop, pictures {pictures:3}: {direct[pictures].text(n, 'bracket')}")
-
+        # The direct library loop and the batch on 1 worker run in turn in every repetition, so a
+        # change of the machine's load touches both alike (the idle worker waits meanwhile).
+        direct_loop(brackets[:1], on, work / "direct-warm", a.region)  # imports, picture templates
+        direct = {p: Timed(f"direct {p}") for p in ("on", "off")}
         batch = {}
         startup = {}
         for workers in (1, 2):
@@ -225,20 +227,22 @@ def main(argv=None) -> int:
                 client.run(_warm_worker)
                 run_batch(work / "warm", work / f"warm-out{workers}", settings=on, client=client)
                 startup[workers].append(time.perf_counter() - t0)
-                for pictures, settings in (("on", on), ("off", off)):
-                    if workers == 2 and pictures == "off":
-                        continue
-                    t = batch[(workers, pictures)] = Timed(f"batch {workers} {pictures}")
-                    for rep in range(a.repeat):
+                runs = (("on", on), ("off", off)) if workers == 1 else (("on", on),)
+                for pictures, _ in runs:
+                    batch[(workers, pictures)] = Timed(f"batch {workers} {pictures}")
+                for rep in range(a.repeat):
+                    for pictures, settings in runs:
+                        if workers == 1:
+                            direct[pictures].run(lambda: direct_loop(brackets, settings,
+                                                                     work / f"direct-{pictures}-{rep}", a.region))
                         out = work / f"batch{workers}-{pictures}-{rep}"
-
-                        def go():
-                            result = run_batch(root, out, settings=settings, client=client)
-                            assert result["done"] == n, [r["error"] for r in result["rows"] if r["error"]]
-
-                        t.run(go)
-                    print(f"batch, {workers} worker{'s' if workers > 1 else ' '}, pictures {pictures:3}: "
-                          f"{t.text(n, 'bracket')}")
+                        batch[(workers, pictures)].run(lambda: batch_once(root, out, settings, client, n))
+            if workers == 1:
+                for pictures in ("on", "off"):
+                    print(f"direct library loop, pictures {pictures:3}: {direct[pictures].text(n, 'bracket')}")
+            for pictures, _ in runs:
+                print(f"batch, {workers} worker{'s' if workers > 1 else ' '}, pictures {pictures:3}: "
+                      f"{batch[(workers, pictures)].text(n, 'bracket')}")
         print("start-up, not in the figures above: " + "; ".join(
             f"{w} worker{'s' if w > 1 else ''}: cluster {c:.1f} s + first brackets (imports, picture templates) "
             f"{f:.1f} s" for w, (c, f) in startup.items()))
@@ -287,12 +291,7 @@ def main(argv=None) -> int:
                     t = Timed(method)
                     for rep in range(a.repeat):
                         out = work / f"mosaic-{method}-{rep}"
-
-                        def go():
-                            result = run_batch(mroot, out, settings=settings, client=client)
-                            assert result["done"] == m, [r["error"] for r in result["rows"] if r["error"]]
-
-                        t.run(go)
+                        t.run(lambda: batch_once(mroot, out, settings, client, m))
                     fps[method] = m / t.best[0]
                     print(f"batch, 2 workers, --demosaic {method:10}: {t.text(m, 'frame')}")
             print(f"start-up, not in the figures above: cluster of 2 workers {t_start:.1f} s; first frame on each "
