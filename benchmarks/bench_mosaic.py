@@ -66,7 +66,7 @@ def main(argv=None):
 
     import cv2
 
-    from polarsky.estimate.runner import run_blocks, use_compiled
+    from polarsky.estimate.runner import run_blocks, use_compiled_mosaic
     from polarsky.estimate.sinks import MemorySink
     from polarsky.mosaic.decode import position_matrix
     from polarsky.mosaic.fast import fast_fit
@@ -125,7 +125,7 @@ def main(argv=None):
         t_floor, _ = best(floor, args.repeat)
         say(f"{name:<11} {t_fast * 1e3:9.0f} ms {t_all * 1e3:11.0f} ms {t_cmd * 1e3:7.0f} ms {t_proc * 1e3:9.0f} ms "
             f"{t_floor * 1e3:7.0f} ms   ({1 / t_cmd:.1f} frames/s in-process, median {m_cmd * 1e3:.0f} ms)")
-    if use_compiled(width * height):
+    if use_compiled_mosaic(width * height):
         say("the command runs the compiled fused pass of each method (mono sensor, no per-pixel calibration)")
     else:
         say("below the compiled kernels' size the command runs the numpy path (the fused pass is timed alone)")

@@ -165,7 +165,6 @@ def _run(bracket: Bracket, settings, tmp: Path, *, sky: bool, t0: float) -> dict
 
             AdviceOutputs.check(settings)
         t_start = time.perf_counter()
-        _load_kernels(bracket)
         op = open_source(frames, settings)
         src = op.source
         with dest:  # a failed write becomes the one-line error naming the bracket's folder
@@ -217,29 +216,6 @@ def _run(bracket: Bracket, settings, tmp: Path, *, sky: bool, t0: float) -> dict
         row["analyzer_angles_deg"] = format_angle_list(summary["analyzer_angles_deg"])
     row["time_s"] = round(time.perf_counter() - t0, 3)
     return row
-
-
-def _load_kernels(bracket: Bracket) -> None:
-    """Load the compiled kernels in this worker before a bracket large enough to use them once
-    they are loaded (:data:`polarsky.estimate.runner.LOADED_MIN_VALUES`, counted from the frames'
-    headers: pixels times frames, four values per mosaic pixel).
-
-    A worker is a long-lived process that pays for loading them once; loading them here makes
-    every such bracket take the compiled path, whatever ran on the worker before it.
-    """
-    import importlib
-
-    from ..estimate.runner import LOADED_MIN_VALUES
-    from ..read.formats import header_pixels
-
-    pixels = [header_pixels(f) for f in bracket.frames]
-    if not pixels or None in pixels:
-        return
-    mosaic = bracket.rule == "mosaic"
-    if sum(pixels) * (4 if mosaic else 1) >= LOADED_MIN_VALUES:
-        importlib.import_module("polarsky.core.kernels.dispatch")
-        if mosaic:
-            importlib.import_module("polarsky.mosaic._kernels")
 
 
 def _first_frame(op):

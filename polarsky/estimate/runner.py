@@ -17,7 +17,7 @@ import numpy as np
 from ..core.noise import NoiseModel
 from .block import SMOOTH_RADIUS, estimate, needs_context
 
-__all__ = ["run_blocks", "block_rows", "use_compiled", "mask_impossible", "BLOCK_VALUES", "COMPILED_MIN_VALUES",
+__all__ = ["run_blocks", "block_rows", "use_compiled", "use_compiled_mosaic", "mask_impossible", "BLOCK_VALUES", "COMPILED_MIN_VALUES",
            "IMPOSSIBLE_SIGMAS"]
 
 #: Target number of float32 values per analyzer in one row block.
@@ -29,19 +29,24 @@ BLOCK_VALUES = 1 << 20
 COMPILED_MIN_VALUES = 30_000_000
 
 
-#: Once the kernels are loaded in a process (a batch worker, the second frame of a sequence),
-#: they are the faster path from this many values on.
-LOADED_MIN_VALUES = 1_000_000
+#: Mosaic frames of at least this many sensor pixels use the compiled (fused) passes: a
+#: polarization camera's frames come in sequences, and from about 5 MP on those passes are
+#: faster per frame even in a new process (the newton method) and several times faster once
+#: loaded (superpixel: about 55 ms instead of about 0.3 s of estimate per 5 MP frame).
+MOSAIC_COMPILED_MIN_PIXELS = 4_000_000
 
 
-def use_compiled(n_values: int, kernels: str = "polarsky.core.kernels.dispatch") -> bool:
-    """Whether an input of ``n_values`` values should use the compiled kernels: when it is large
-    enough to pay for loading them, or when the module ``kernels`` is loaded in this process
-    already and the input is not tiny."""
-    import sys
+def use_compiled(n_values: int) -> bool:
+    """Whether a bracket of ``n_values`` values (pixels x channels x frames) uses the compiled
+    kernels.  The choice depends on the input's size alone, so a bracket gives the same
+    numbers in every command and in a batch, whatever ran before it in the process."""
+    return int(n_values) >= COMPILED_MIN_VALUES
 
-    n = int(n_values)
-    return n >= COMPILED_MIN_VALUES or (kernels in sys.modules and n >= LOADED_MIN_VALUES)
+
+def use_compiled_mosaic(n_pixels: int) -> bool:
+    """Whether a mosaic frame of ``n_pixels`` sensor pixels uses the compiled passes (by size
+    alone, as :func:`use_compiled`)."""
+    return int(n_pixels) >= MOSAIC_COMPILED_MIN_PIXELS
 
 
 #: A DoLP above 1 by more than this many of its standard uncertainties is impossible (no light

@@ -107,11 +107,9 @@ class MosaicSource:
         self.margin = decode_margin(layout, method)
         self.level = float(np.mean(np.abs(self.values)))
         self.eps = newton_eps(self.level)
-        from .runner import use_compiled
+        from .runner import use_compiled_mosaic
 
-        # four analyzer values per cell of four pixels, as many values as a bracket's
-        self.compiled = (use_compiled(4 * self.values.size, "polarsky.mosaic._kernels") if compiled is None
-                         else bool(compiled))
+        self.compiled = use_compiled_mosaic(self.values.size) if compiled is None else bool(compiled)
         self.fast = bool(self.compiled and layout.colour is None and not self.per_pixel and method.name in FAST_METHODS)
 
     def _window(self, r0: int, r1: int):

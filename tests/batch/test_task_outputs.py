@@ -231,22 +231,17 @@ def test_advice_equals_the_command_when_pixels_are_masked_for_a_dolp_above_one(t
     assert batch == _json(tmp_path / "advise" / "advice.json") == json.loads(json.dumps(command))
 
 
-def test_worker_loads_the_kernels_before_a_bracket_that_uses_them(tmp_path, monkeypatch):
-    """A bracket of at least LOADED_MIN_VALUES values (pixels times frames) takes the compiled
-    path in a worker whatever ran there before: the worker loads the kernels first."""
-    import sys
+def test_the_kernel_choice_depends_on_the_input_alone(tmp_path):
+    """A bracket takes the same path (and so gives the same numbers) in a fresh process and in
+    a worker that has loaded the compiled kernels for an earlier, larger input."""
+    import importlib
 
-    from polarsky.batch.task import _load_kernels
-    from polarsky.estimate.runner import LOADED_MIN_VALUES
+    from polarsky.estimate.runner import use_compiled, use_compiled_mosaic
+    from polarsky.tasks._common import open_source
 
-    loaded = []
-    monkeypatch.setattr("importlib.import_module", lambda name: loaded.append(name))
-    small = write_bracket(tmp_path / "small", "a", height=48, width=64)
-    side = int(np.ceil(np.sqrt(LOADED_MIN_VALUES / 4)))
-    large = write_bracket(tmp_path / "large", "b", height=side, width=side)
-    settings = Settings.from_options({})
-    for root in (tmp_path / "small", tmp_path / "large"):
-        (b,) = runner.list_brackets(root, settings=settings)
-        _load_kernels(b)
-    assert loaded == ["polarsky.core.kernels.dispatch"]
-    assert len(small) == len(large) == 4 and "polarsky" in sys.modules
+    frames = write_bracket(tmp_path / "small", "a", height=48, width=64)
+    before = open_source(frames, Settings.from_options({})).source.compiled
+    importlib.import_module("polarsky.core.kernels.dispatch")
+    importlib.import_module("polarsky.mosaic._kernels")
+    assert open_source(frames, Settings.from_options({})).source.compiled is before is False
+    assert use_compiled(1_000_000) is False and use_compiled_mosaic(1_000_000) is False
