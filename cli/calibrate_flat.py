@@ -32,7 +32,7 @@ def command(frames, out_dir, as_json, **kw):
         print_json(summary)
         return 0
     h, w = summary["sensor_shape"]
-    click.echo(f"flat calibration of a {w}x{h} mosaic ({summary['mosaic']}, colour {summary['mosaic_colour'] or 'none'}) "
+    click.echo(f"flat calibration of a {w}x{h} mosaic ({summary['mosaic']}, colour {summary['mosaic_color'] or 'none'}) "
                f"from {summary['n_frames']} frames and {summary['n_dark_frames']} dark frames")
     click.echo(f"{'pos':>3} {'col':>3} {'nominal':>7} {'err mean':>8} {'err rms':>7} {'err p5..p95':>15} "
                f"{'ER p50':>7} {'ER p5..p95':>15} {'gain sd':>7}")

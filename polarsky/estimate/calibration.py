@@ -18,7 +18,7 @@ from, and whose variables may hold:
 Required attrs: ``polarsky_calibration`` (format version), ``kind`` (e.g. ``"sky"``,
 ``"flat"``), ``created``, ``software_version``, ``inputs`` (JSON list of input files),
 ``method`` (text), and for mosaics ``mosaic``, ``sensor_shape`` and, for colour sensors,
-``mosaic_colour`` (absent for monochrome sensors).
+``mosaic_color`` (absent for monochrome sensors).
 """
 
 from __future__ import annotations

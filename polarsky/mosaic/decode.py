@@ -111,10 +111,10 @@ def check_calibration(cal, layout: MosaicLayout, shape):
                 f"calibration {src} was made for mosaic {other.text} but --mosaic is {layout.text}; "
                 "give the layout the calibration was made with, or recalibrate"
             )
-    col = cal.attrs.get("mosaic_colour") or None
+    col = cal.attrs.get("mosaic_color") or None
     if (col or None) != layout.colour:
         raise InputError(
-            f"calibration {src} was made for colour pattern {col or 'none (mono)'} but --mosaic-colour is "
+            f"calibration {src} was made for colour pattern {col or 'none (mono)'} but --mosaic-color is "
             f"{layout.colour or 'none (mono)'}; give the same pattern or recalibrate"
         )
     g = np.asarray(cal.pixel.get("pixel_gain"))

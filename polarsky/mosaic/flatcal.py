@@ -171,10 +171,10 @@ def _colour_groups(layout, shape):
     return [cmap == i for i in range(3)]
 
 
-def fit_flat_files(frames, angles_deg, *, mosaic, mosaic_colour=None, dark=(), bit_depth=None,
+def fit_flat_files(frames, angles_deg, *, mosaic, mosaic_color=None, dark=(), bit_depth=None,
                    black_level=None, transfer="auto"):
     """Fit a flat calibration from bench frame files (streamed; see :func:`fit_flat`)."""
-    layout = parse_mosaic(mosaic, mosaic_colour)
+    layout = parse_mosaic(mosaic, mosaic_color)
     frames = list(frames)
     if not frames:
         raise InputError("no calibration frames given; give one FRAME per reference-polarizer angle")
@@ -278,7 +278,7 @@ def flat_summary(fit: FlatFit) -> dict:
     return {
         "sensor_shape": [int(h), int(w)],
         "mosaic": fit.layout.text,
-        "mosaic_colour": fit.layout.colour,
+        "mosaic_color": fit.layout.colour,
         "n_frames": int(fit.info.get("n_frames", 0)),
         "n_dark_frames": int(fit.info.get("n_dark", 0)),
         "reference_angles_deg": [round(float(a), 4) for a in fit.angles_deg],
@@ -307,7 +307,7 @@ def flat_calibration(fit: FlatFit, summary=None) -> Calibration:
         },
         attrs={
             "mosaic": fit.layout.text,
-            "mosaic_colour": fit.layout.colour,
+            "mosaic_color": fit.layout.colour,
             "sensor_shape": [int(v) for v in fit.gain.shape],
             "channels": ["sensor"],
             "reference_angles_deg": [float(a) for a in fit.angles_deg],

@@ -185,7 +185,7 @@ class Settings:
         """Refuse options that do not fit the kind of frames (mosaic or bracket) being estimated."""
         given = self.given
         if self.mosaic.mosaic is None:
-            extra = [n for n in ("mosaic_colour", "black_level", "demosaic") if n in given]
+            extra = [n for n in ("mosaic_color", "black_level", "demosaic") if n in given]
             if extra:
                 flags = ", ".join("--" + n.replace("_", "-") for n in extra)
                 raise InputError(f"{flags} apply only to mosaic frames; add --mosaic CELL (e.g. \"90,45;135,0\") "

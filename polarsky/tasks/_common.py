@@ -238,7 +238,7 @@ def _open_mosaic(frames, settings, cal, noise, compiled) -> Opened:
     from ..write.summary import calibration_facts
 
     rd, mo = settings.read, settings.mosaic
-    layout = parse_mosaic(mo.mosaic, mo.mosaic_colour)
+    layout = parse_mosaic(mo.mosaic, mo.mosaic_color)
     method = validate_method(mo.demosaic)
     t0 = time.perf_counter()
     stack = read_mosaic_stack(list(frames), bit_depth=rd.bit_depth, black_level=rd.black_level, transfer=rd.transfer)
@@ -257,7 +257,7 @@ def _open_mosaic(frames, settings, cal, noise, compiled) -> Opened:
         "analyzer_angles_deg": list(layout.angles_deg), "angle_source": "mosaic cell",
         "width_px": int(ws // k), "height_px": int(hs // k), "sensor_width_px": int(ws), "sensor_height_px": int(hs),
         "output_pixel_size_px": int(k), "channels": layout.channels, "transfer": [info["transfer"]] * info["n_frames"],
-        "polarizer": "sensor", "mosaic": layout.text, "mosaic_colour": layout.colour, "demosaic": method.name,
+        "polarizer": "sensor", "mosaic": layout.text, "mosaic_color": layout.colour, "demosaic": method.name,
         "demosaic_reference": method.reference, "bit_depth": info["bit_depth"], "black_level": info["black_level"],
         "exposure_source": "none", "condition_number": round(_cond(source.w[0]), 4), "extinction_ratio": None,
         "analysis_matrix": np.round(source.w, 8).tolist(), "calibration": calibration_facts(cal, per_pixel=source.per_pixel),

@@ -21,7 +21,7 @@ def run_calibrate_flat(frames, out_dir, settings=None, **options) -> dict:
         One frame per reference-polarizer angle (``angles`` in frame order).
     out_dir : path
     settings : Settings, optional
-        ``angles`` (required), ``mosaic`` (required), ``mosaic_colour``, ``dark``,
+        ``angles`` (required), ``mosaic`` (required), ``mosaic_color``, ``dark``,
         ``bit_depth``, ``black_level``, ``transfer``.
 
     Returns
@@ -45,7 +45,7 @@ def run_calibrate_flat(frames, out_dir, settings=None, **options) -> dict:
     dark = [str(d) for d in settings.calibrate.dark]
     check_out_dir(out_dir, inputs=frames + dark)
     with collect_warnings() as caught:
-        fit = fit_flat_files(frames, list(rd.angles), mosaic=mo.mosaic, mosaic_colour=mo.mosaic_colour, dark=dark,
+        fit = fit_flat_files(frames, list(rd.angles), mosaic=mo.mosaic, mosaic_color=mo.mosaic_color, dark=dark,
                              bit_depth=rd.bit_depth, black_level=rd.black_level, transfer=rd.transfer)
         summary = flat_summary(fit)
         cal = flat_calibration(fit, summary)

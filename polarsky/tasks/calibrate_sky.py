@@ -85,7 +85,7 @@ def fit_sky_calibration(brackets, settings, *, stokes=None, position_data=None, 
         Products per bracket already in memory (mosaic frames).
     position_data : list of dict, optional
         Mosaic cameras, per bracket: ``intensities`` (4, C, h, w) of the micro-polarizer
-        positions (no calibration applied), ``angles_deg``, ``mosaic``, ``mosaic_colour``:
+        positions (no calibration applied), ``angles_deg``, ``mosaic``, ``mosaic_color``:
         an offset per position and channel is fitted.
 
     Returns
@@ -236,7 +236,7 @@ def fit_sky_calibration(brackets, settings, *, stokes=None, position_data=None, 
     }
     if position_data is not None:
         attrs["mosaic"] = position_data[0].get("mosaic")
-        attrs["mosaic_colour"] = position_data[0].get("mosaic_colour")
+        attrs["mosaic_color"] = position_data[0].get("mosaic_color")
         attrs["positions_deg"] = [float(a) for a in position_data[0]["angles_deg"]]
         if diatt is not None:
             diatt = np.broadcast_to(diatt, offsets.shape).copy()
@@ -276,11 +276,11 @@ def _position_intensities(frames, settings) -> dict:
     from ..read.mosaic_frames import read_mosaic_stack
 
     rd, mo = settings.read, settings.mosaic
-    layout = parse_mosaic(mo.mosaic, mo.mosaic_colour)
+    layout = parse_mosaic(mo.mosaic, mo.mosaic_color)
     stack = read_mosaic_stack(frames, bit_depth=rd.bit_depth, black_level=rd.black_level, transfer=rd.transfer)
     dec = decode_mosaic(stack.values, stack.invalid, layout, method=mo.demosaic)
     return {"intensities": dec["intensities"], "angles_deg": list(layout.angles_deg), "mosaic": layout.text,
-            "mosaic_colour": layout.colour}
+            "mosaic_color": layout.colour}
 
 
 def run_calibrate_sky(frames, out_dir, settings=None, **options) -> dict:

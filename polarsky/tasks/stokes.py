@@ -280,7 +280,7 @@ def stokes_from_mosaic_values(values, invalid=None, settings=None, *, full_scale
     srgb : bool
         The values were sRGB-encoded before linearisation (noise model).
     **options
-        Settings by name; ``mosaic`` (the cell) is required, ``mosaic_colour``,
+        Settings by name; ``mosaic`` (the cell) is required, ``mosaic_color``,
         ``demosaic``, ``calibration``, the noise options apply.
 
     Returns
@@ -303,7 +303,7 @@ def stokes_from_mosaic_values(values, invalid=None, settings=None, *, full_scale
     mo, est = settings.mosaic, settings.estimate
     if mo.mosaic is None:
         raise InputError("give mosaic=\"a,b;c,d\": the micro-polarizer angles of the 2x2 cell")
-    layout = parse_mosaic(mo.mosaic, mo.mosaic_colour)
+    layout = parse_mosaic(mo.mosaic, mo.mosaic_color)
     method = validate_method(mo.demosaic)
     values = np.asarray(values, dtype=np.float32)
     check_frame_shape(values.shape, layout)
@@ -315,7 +315,7 @@ def stokes_from_mosaic_values(values, invalid=None, settings=None, *, full_scale
     with collect_warnings():
         info = run_blocks(src, noise, [mem])
         check_estimate(info, settings, src.channels)
-    attrs = {"source_kind": "polarization mosaic", "mosaic": layout.text, "mosaic_colour": layout.colour,
+    attrs = {"source_kind": "polarization mosaic", "mosaic": layout.text, "mosaic_color": layout.colour,
              "demosaic": method.name, "demosaic_reference": method.reference, "polarizer": "sensor",
              "analyzer_angles_deg": list(layout.angles_deg), "analysis_matrix": np.round(src.w, 8).tolist(),
              "calibration": calibration_facts(cal, per_pixel=src.per_pixel), "output_pixel_size_px": k,

@@ -93,7 +93,7 @@ def recipe_from_facts(facts: dict, n_channels: int) -> tuple[dict | None, str]:
         return None, "the result does not record its input frames"
     opts: dict = {}
     if facts.get("mosaic"):
-        opts.update(mosaic=facts["mosaic"], mosaic_colour=facts.get("mosaic_colour"), demosaic=facts.get("demosaic"),
+        opts.update(mosaic=facts["mosaic"], mosaic_color=facts.get("mosaic_color"), demosaic=facts.get("demosaic"),
                     bit_depth=facts.get("bit_depth"), black_level=facts.get("black_level"))
     elif facts.get("angle_source") != "file names":
         opts["angles"] = facts["analyzer_angles_deg"]

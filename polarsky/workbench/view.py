@@ -163,7 +163,7 @@ class View:
                 elif lid in ("dolp", "aolp", "combined"):
                     note = "all channels: from the summed Stokes vector"
             rng = self.ranges.get(lid)
-            out.append({"id": lid, "title": title, "colour_map": cmap or "grey", "unit": unit, "note": note,
+            out.append({"id": lid, "title": title, "color_map": cmap or "gray", "unit": unit, "note": note,
                         "range": list(rng) if rng else None, "group": needs})
         return out
 

@@ -15,7 +15,7 @@ __all__ = ["SUMMARY_KEYS", "build_summary", "calibration_facts"]
 SUMMARY_KEYS = (
     "software_version", "source_kind", "inputs", "frames", "analyzer_angles_deg", "angle_source",
     "width_px", "height_px", "sensor_width_px", "sensor_height_px", "output_pixel_size_px", "channels", "transfer",
-    "polarizer", "mosaic", "mosaic_colour", "demosaic", "demosaic_reference", "bit_depth", "black_level",
+    "polarizer", "mosaic", "mosaic_color", "demosaic", "demosaic_reference", "bit_depth", "black_level",
     "exposure_scale", "exposure_source", "condition_number", "extinction_ratio", "analysis_matrix", "calibration",
     "aligned", "shifts_px", "rotations_deg", "scales", "filter_mount", "roll_corrections_deg",
     "orientation", "frame_orientations", "angle_frame", "float_scale", "response", "response_check",

@@ -48,9 +48,9 @@ def test_stokes_mosaic_subprocess_text(tmp_path, frame):
 @pytest.mark.parametrize("args, match", [
     (["--mosaic", "90,45;135,45"], "error: mosaic '90,45;135,45' does not hold four distinct orientations"),
     (["--mosaic", "90,45,135,0"], "error: mosaic '90,45,135,0' is not a 2x2 cell"),
-    (["--mosaic-colour", "RGGB"], "error: --mosaic-colour apply only to mosaic frames; add --mosaic"),
+    (["--mosaic-color", "RGGB"], "error: --mosaic-color apply only to mosaic frames; add --mosaic"),
     (["--mosaic", LAY, "--angles", "0,45,90,135"], "error: --angles describes a bracket of frames"),
-    (["--mosaic", LAY, "--mosaic-colour", "RGGB", "--bit-depth", "12", "--black-level", "99999"],
+    (["--mosaic", LAY, "--mosaic-color", "RGGB", "--bit-depth", "12", "--black-level", "99999"],
      "error: black level 99999 is outside"),
     (["--mosaic", LAY, "--demosaic", "cubic"], "error: Invalid value for '--demosaic'"),
 ])
@@ -65,7 +65,7 @@ def test_bad_input_exit_2(tmp_path, frame, capsys, args, match):
 
 def test_frame_not_multiple_of_cell_cli(tmp_path, capsys):
     p = write_mosaic_png(tmp_path / "odd.png", np.full((H, W - 2), 0.3))
-    rc = main(["stokes", str(p), "--mosaic", LAY, "--mosaic-colour", "GBRG", "--out", str(tmp_path / "o")])
+    rc = main(["stokes", str(p), "--mosaic", LAY, "--mosaic-color", "GBRG", "--out", str(tmp_path / "o")])
     assert rc == 2
     assert "62x48 pixels, not a multiple of the 4x4 colour mosaic" in capsys.readouterr().err
 
@@ -81,5 +81,5 @@ def test_mosaic_and_bracket_summaries_share_one_schema(tmp_path, frame, png_brac
     for key in SUMMARY_KEYS:
         if mosaic[key] is not None and bracket[key] is not None:
             assert type(mosaic[key]) is type(bracket[key]), key
-    assert mosaic["transfer"] == ["linear"] and mosaic["mosaic_colour"] is None and mosaic["calibration"] is None
+    assert mosaic["transfer"] == ["linear"] and mosaic["mosaic_color"] is None and mosaic["calibration"] is None
     assert bracket["mosaic"] is None and mosaic["output_pixel_size_px"] == 1

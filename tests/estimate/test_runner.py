@@ -98,12 +98,12 @@ def test_mosaic_products_do_not_depend_on_block_size(tmp_path, method, colour, f
     h, w, cell = 24, 32, "90,45;135,0"
     lay = parse_mosaic(cell, colour)
     scene = scene_edges(h, w) if colour is None else np.stack([scene_edges(h, w) * f for f in (0.5, 1, 0.8)])
-    options = {"mosaic": cell, "mosaic_colour": colour, "demosaic": method}
+    options = {"mosaic": cell, "mosaic_color": colour, "demosaic": method}
     if flat:
         fit, angle, dia, gain = _flat_sensor(h, w, parse_mosaic(cell))
         raw = mosaic_sample(scene, lay, angle_deg=angle, diattenuation=dia, gain=gain)
         cal = flat_calibration(fit)
-        cal.attrs["mosaic_colour"] = colour
+        cal.attrs["mosaic_color"] = colour
         options["calibration"] = write_calibration(tmp_path / "calibration.nc", cal)
     else:
         raw = mosaic_sample(scene, lay)

@@ -144,7 +144,7 @@ def test_calibration_for_another_sensor_or_layout(tmp_path):
     with pytest.raises(InputError, match=r"made for mosaic 90,45;135,0 but --mosaic is 0,45;135,90"):
         stokes_from_mosaic_values(np.full((H, W), 0.3, np.float32), mosaic="0,45;135,90", calibration=cal)
     with pytest.raises(InputError, match="colour pattern none"):
-        stokes_from_mosaic_values(np.full((H, W), 0.3, np.float32), mosaic=LAY.text, mosaic_colour="RGGB",
+        stokes_from_mosaic_values(np.full((H, W), 0.3, np.float32), mosaic=LAY.text, mosaic_color="RGGB",
                                   calibration=cal)
 
 

@@ -90,7 +90,7 @@ def test_run_stokes_outputs_and_netcdf_round_trip(png_bracket, tmp_path):
     assert list(js) == list(SUMMARY_KEYS)
     assert js["frames"] == 4 and js["mean_dolp"]["L"] == pytest.approx(summary["mean_dolp"]["L"])
     assert js["width_px"] == 64 and js["height_px"] == 48 and js["transfer"] == ["linear"] * 4
-    assert js["median_relative_residual"] < 1e-3 and js["calibration"] is None and js["mosaic_colour"] is None
+    assert js["median_relative_residual"] < 1e-3 and js["calibration"] is None and js["mosaic_color"] is None
     # the only hidden file is the marker of a folder written by polarsky (no staging leftovers)
     assert [p.name for p in out.iterdir() if p.name.startswith(".")] == [".polarsky-run.json"]
     assert not [p for p in out.parent.iterdir() if p.name.startswith(".")]

@@ -50,7 +50,7 @@ def test_summaries_of_a_bracket_and_of_mosaic_frames_share_one_schema(tmp_path, 
     for colour, method in ((None, "superpixel"), (None, "newton"), ("RGGB", "bilinear")):
         m = _mosaic(tmp_path / f"m-{colour}-{method}", colour)
         summaries.append(run_stokes([m], tmp_path / f"o-{colour}-{method}", mosaic="90,45;135,0",
-                                    mosaic_colour=colour, demosaic=method, pictures=False))
+                                    mosaic_color=colour, demosaic=method, pictures=False))
     for s in summaries:
         _validate(s, "summary")
     # written file == returned dict

@@ -199,13 +199,13 @@ function showKey() {
   }
   const l = layerInfo(S.layer);
   img.src = withToken(`/api/key/${l.id}.png`);
-  key.classList.toggle("disc", l.colour_map === "combined");
+  key.classList.toggle("disc", l.color_map === "combined");
   let labels;
-  if (l.colour_map === "combined") labels = ["0 deg", "90", "180 deg"];
+  if (l.color_map === "combined") labels = ["0 deg", "90", "180 deg"];
   else if (l.id === "frame") labels = ["0", fmtTick(S.meta.top / 2), fmtTick(S.meta.top)];
   else { const [lo, hi] = l.range; labels = [fmtTick(lo), fmtTick((lo + hi) / 2), fmtTick(hi)]; }
   labels.forEach((t) => { const s = document.createElement("span"); s.textContent = t; ticks.appendChild(s); });
-  cap.textContent = l.unit + (l.colour_map === "combined" ? " (direction = AoLP as drawn, radius = DoLP; full colour at 0.6)" : "")
+  cap.textContent = l.unit + (l.color_map === "combined" ? " (direction = AoLP as drawn, radius = DoLP; full colour at 0.6)" : "")
     + (l.note && S.channel === "all" ? " · " + l.note : "");
   document.body.dataset.layer = l.id;
 }
