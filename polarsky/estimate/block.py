@@ -98,6 +98,20 @@ def _finish_numpy(s, mean, rss, invalid, n, mode, inv_fw, q_var, srgb):
     return dolp, aolp, res, var
 
 
+def _box_sum(a: np.ndarray, r: int) -> np.ndarray:
+    """Sum over the (2r+1)^2 window of each pixel, edges mirrored, float32: columns first,
+    then rows, in the order the compiled smoothing pass adds them (bit-identical results)."""
+    h, w = a.shape
+    ap = np.pad(a, r, mode="symmetric")
+    cols = np.zeros((h + 2 * r, w), np.float32)
+    for dx in range(2 * r + 1):
+        cols += ap[:, dx:dx + w]
+    out = np.zeros((h, w), np.float32)
+    for dy in range(2 * r + 1):
+        out += cols[dy:dy + h]
+    return out
+
+
 def smooth_variance(var: np.ndarray) -> np.ndarray:
     """Mean of the finite values in the 5x5 window around each pixel (NaN stays NaN).
 
@@ -109,25 +123,11 @@ def smooth_variance(var: np.ndarray) -> np.ndarray:
     every = bool(finite.all())
     # every value finite: each window counts (2r+1)^2 values (the padding repeats finite ones)
     v0 = var.astype(np.float32) if every else np.where(finite, var, np.float32(0)).astype(np.float32)
-    vp = np.pad(v0, r, mode="symmetric")
-    h, w = var.shape
-    num = np.zeros((h + 2 * r, w), np.float32)
-    for dx in range(2 * r + 1):
-        num += vp[:, dx:dx + w]
-    num2 = np.zeros((h, w), np.float32)
-    for dy in range(2 * r + 1):
-        num2 += num[dy:dy + h]
+    num2 = _box_sum(v0, r)
     if every:
         num2 /= np.float32((2 * r + 1) ** 2)
         return num2
-    cnt = finite.astype(np.float32)
-    cp = np.pad(cnt, r, mode="symmetric")
-    den = np.zeros((h + 2 * r, w), np.float32)
-    for dx in range(2 * r + 1):
-        den += cp[:, dx:dx + w]
-    den2 = np.zeros((h, w), np.float32)
-    for dy in range(2 * r + 1):
-        den2 += den[dy:dy + h]
+    den2 = _box_sum(finite.astype(np.float32), r)
     with np.errstate(invalid="ignore", divide="ignore"):
         return np.where(finite, num2 / den2, np.float32(np.nan)).astype(np.float32)
 
