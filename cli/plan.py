@@ -84,7 +84,7 @@ def _print_sky(r: dict, out_dir) -> None:
                    f"{r['region_darkening_stops_at_best_angle']:.2f}")
         _axis(r["region_best_angle_deg"], r["region_best_ring_reading_deg"], r, "for the region alone", "  ")
     if r["sun_in_frame"]:
-        click.echo("caution: the sun is in this frame: do not look through an optical viewfinder, frame with the "
+        click.echo("Safety: the sun is in this frame: do not look through an optical viewfinder, frame with the "
                    "screen, and do not leave the camera aimed there")
     for kind in ("time", "yaw"):
         if r[f"sweep_{kind}"] is not None:

@@ -53,7 +53,7 @@ VARIABLES = {
     "valid": ("1", "pixel is valid: not saturated or black in any frame, inside every aligned frame"),
 }
 
-SUN_CAUTION = ("caution: never look at the sun through a viewfinder, lens, binoculars or a filter, and do not "
+SUN_CAUTION = ("Safety: never look at the sun through a viewfinder, lens, binoculars or a filter, and do not "
                "leave a camera or sensor aimed at the sun; follow local safety rules and your equipment's "
                "instructions")
 FIELD_CAUTION = ("Safety: never look at the sun through a viewfinder or lens, and do not leave a sensor pointed at it; "

@@ -6,6 +6,10 @@ start of a run hides most of that cost.  A later ``import`` of the same module w
 thread's import to finish (Python's per-module import lock), so nothing is loaded twice; a
 failure in the thread is ignored here and surfaces, with its real message, where the module
 is used.
+
+The thread is not a daemon: a run that stops early (an input error a moment after the start)
+waits for the import to finish before the interpreter shuts down, instead of freezing a
+half-imported extension module at exit, which can print stray lines or crash.
 """
 
 from __future__ import annotations
@@ -16,14 +20,14 @@ __all__ = ["prefetch", "prefetch_modules"]
 
 
 def prefetch(fn, *args) -> threading.Thread:
-    """Run ``fn(*args)`` in a daemon thread now; return the thread."""
+    """Run ``fn(*args)`` in a background thread now (joined at exit); return the thread."""
     def run():
         try:
             fn(*args)
         except Exception:  # noqa: BLE001 - reported where the module is really used
             pass
 
-    t = threading.Thread(target=run, name="polarsky-prefetch", daemon=True)
+    t = threading.Thread(target=run, name="polarsky-prefetch", daemon=False)
     t.start()
     return t
 

@@ -38,7 +38,7 @@ def test_plan_sky_text_with_sweeps_and_region(tmp_path, capsys):
     text = capsys.readouterr().out
     assert rc == 0
     assert "sun below the horizon" in text and "deepest" in text and "region 0,0,40,30" in text
-    assert "the left third darkens" in text and "caution:" in text and "wrote plan_sky.json" in text
+    assert "the left third darkens" in text and "Safety:" in text and "wrote plan_sky.json" in text
 
 
 def test_plan_glare_json_keys(capsys):

@@ -50,7 +50,7 @@ def test_sky_human_output_has_caution(frames, tmp_path, capsys):
     rc = main(["sky", *frames, *GEO, "--out", str(tmp_path / "h"), "--no-pictures", "--solve", "yaw"])
     out = capsys.readouterr().out
     assert rc == 0
-    assert "sun: azimuth" in out and "solved: yaw" in out and "caution:" in out
+    assert "sun: azimuth" in out and "solved: yaw" in out and "Safety:" in out
 
 
 def test_calibrate_sky_writes_cal_nc(stokes_nc, tmp_path, capsys):

@@ -63,6 +63,9 @@ def test_first_view_loads_only_from_the_workbench(page, colour):
     wb = colour[0]
     assert page.eval("document.body.dataset.state") == "ready"
     assert page.eval("document.getElementById('status').textContent").startswith("scene_000deg.png")
+    # every image the first view asked for arrives (some, like the colour key, may still be in
+    # flight when the tiles are complete) and none is broken
+    page.wait_for("Array.from(document.images).every(i => !i.src || i.complete)", timeout_s=10)
     assert page.eval("Array.from(document.images).filter(i => i.src && !(i.complete && i.naturalWidth)).length") == 0
     assert page.console_errors() == []
     reqs = page.requests()

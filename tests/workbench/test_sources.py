@@ -158,7 +158,7 @@ def test_a_sky_result_adds_the_comparison_layers(sky_result, tmp_path):
             assert np.float32(px["scattering_angle_deg"]) == ds["scattering_angle"][y, x]
         for layer in ("aolp_residual", "dolp_model", "scattering_angle"):
             assert v.tile_png(layer, None, 0, 0, 0)[:8] == b"\x89PNG\r\n\x1a\n"
-        assert v.meta()["sky"]["caution"].startswith("caution: never look at the sun")
+        assert v.meta()["sky"]["caution"].startswith("Safety: never look at the sun")
     finally:
         wb.sock.close()
         wb.session.close()
