@@ -6,7 +6,7 @@ import click
 
 from .options import ANGLE_HELP, out_option, pop_settings, settings_options
 
-GROUPS = ("read", "mosaic", "estimate", "discovery", "workbench")
+GROUPS = ("read", "mosaic", "estimate", "geometry", "sky", "discovery", "workbench")
 
 
 @click.command(name="workbench", short_help="A page in your browser: mark the glare, read the angle.",
@@ -20,8 +20,9 @@ def command(paths, out_dir, **kw):
 
     PATH is the frames of a bracket (or, with --mosaic, polarization-mosaic frames), an output
     folder of 'polarsky stokes', 'polarsky batch' or 'polarsky sky', or a folder of frames
-    (grouped as the batch groups them). The page is served on this machine only; its address
-    carries a random token. Ctrl-C stops it.
+    (grouped as the batch groups them). With the options of 'polarsky sky' (--when, --lat,
+    --lon, lens and orientation) a bracket is also compared with the clear-sky model. The page
+    is served on this machine only; its address carries a random token. Ctrl-C stops it.
     """
     from polarsky.workbench.launch import run_workbench
 

@@ -1,7 +1,9 @@
 """What the PATH arguments of ``polarsky workbench`` mean.
 
 * frame files: one bracket, or polarization-mosaic frames with ``--mosaic`` (read with the
-  bracket options, as ``polarsky stokes`` reads them);
+  bracket options, as ``polarsky stokes`` reads them); with the options of ``polarsky sky``
+  (time, place, lens, orientation) also compared with the clear-sky model, into the
+  workbench's output folder;
 * a folder holding ``stokes.nc``: that result (with the sky layers when ``sky.nc`` is there);
 * a folder holding ``summary.csv`` of ``polarsky batch``: its brackets;
 * a folder holding ``sky.nc`` and ``sky.json`` of ``polarsky sky``: its bracket (the frames or
@@ -27,12 +29,19 @@ BATCH_SUMMARY = "summary.csv"
 _SEARCH_DEPTH = 2
 
 
-def _frames_loader(frames, settings, sky_folder=None):
+def _frames_loader(frames, settings, sky_folder=None, sky_out=None):
     def load():
         from .loaders import load_frames
 
-        return View(load_frames(frames, settings, sky_folder=sky_folder))
+        return View(load_frames(frames, settings, sky_folder=sky_folder, sky_out=sky_out))
     return load
+
+
+def sky_wanted(settings) -> bool:
+    """Whether options of a sky comparison (time, place, lens, orientation, sky model) were given."""
+    from ..options.settings import option_names
+
+    return bool(set(option_names("geometry", "sky")) & settings.given)
 
 
 def _stokes_loader(path, sky_folder=None):
@@ -43,8 +52,9 @@ def _stokes_loader(path, sky_folder=None):
     return load
 
 
-def bracket_entry_args(frames, settings, *, name=None, label=None, note="") -> dict:
-    """Keyword arguments of :meth:`Session.add` for a bracket of frames (``settings``: a Settings)."""
+def bracket_entry_args(frames, settings, *, name=None, label=None, note="", sky_out=None) -> dict:
+    """Keyword arguments of :meth:`Session.add` for a bracket of frames (``settings``: a Settings);
+    with ``sky_out`` (a folder) the bracket is compared with the clear-sky model into it."""
     frames = [str(f) for f in frames]
     manifest = settings.read.manifest
     if name is None:
@@ -52,7 +62,9 @@ def bracket_entry_args(frames, settings, *, name=None, label=None, note="") -> d
     if label is None:
         label = (f"{Path(frames[0]).name} .. {Path(frames[-1]).name} ({len(frames)} frames)" if len(frames) > 1
                  else Path(frames[0]).name if frames else f"manifest {manifest}")
-    return {"name": name, "label": label, "kind": "bracket", "load": _frames_loader(frames, settings),
+    if sky_out is not None:
+        note = (note + "; " if note else "") + f"sky comparison written to {sky_out}"
+    return {"name": name, "label": label, "kind": "bracket", "load": _frames_loader(frames, settings, sky_out=sky_out),
             "recipe": {"frames": frames, "settings": settings}, "note": note}
 
 
@@ -170,8 +182,18 @@ def add_paths(session, paths, settings) -> None:
             raise InputError(f"{p} does not exist; give frames of a bracket or an output folder of "
                              "'polarsky stokes', 'polarsky batch' or 'polarsky sky'")
         (folders if path.is_dir() else frames).append(p)
+    sky = sky_wanted(settings)
+    if sky and (folders or settings.workbench.watch):
+        raise InputError("the sky options (--when, --lat, --lon, the lens and orientation) compare one bracket "
+                         "given as frames with the clear-sky model; for folders, run 'polarsky sky' and open "
+                         "its output folder")
     if frames or (settings.read.manifest is not None and not folders):
-        session.add(**bracket_entry_args(frames, settings))
+        args = bracket_entry_args(frames, settings)
+        if sky:
+            from ..batch.discover import safe_name
+
+            args = bracket_entry_args(frames, settings, sky_out=session.out_dir / safe_name(args["name"]) / "sky")
+        session.add(**args)
     for f in folders:
         folder = Path(f)
         if _is_result(folder):

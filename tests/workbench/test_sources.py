@@ -164,6 +164,53 @@ def test_a_sky_result_adds_the_comparison_layers(sky_result, tmp_path):
         wb.session.close()
 
 
+def _sky_options():
+    from polarsky.synthetic import harbour as demo
+
+    return dict(when=demo.SKY_WHEN, lat=demo.SKY_LAT, lon=demo.SKY_LON, altitude_m=demo.SKY_ALT_M,
+                hfov_deg=demo.SKY_CAMERA["hfov_deg"], yaw_deg=demo.SKY_CAMERA["yaw_deg"],
+                pitch_deg=demo.SKY_CAMERA["pitch_deg"], roll_deg=demo.SKY_CAMERA["roll_deg"])
+
+
+def test_a_sky_bracket_with_time_place_and_orientation_shows_what_polarsky_sky_writes(sky_result, tmp_path):
+    """Frames with the options of 'polarsky sky': the comparison is made as that command makes it
+    (the same sky.nc values as the sky_result fixture's run_sky) and written only into --out."""
+    import netCDF4
+
+    frames = sorted((sky_result / "sky-bracket").iterdir())
+    w = _quiet()
+    try:
+        wb, _ = prepare(frames, tmp_path, **_sky_options())
+    finally:
+        w.__exit__(None, None, None)
+    try:
+        e = wb.session.entry(wb.session.current)
+        assert e.status == "ready" and "sky comparison written to" in e.note
+        v = e.view
+        assert {"dolp_model", "aolp_residual", "scattering_angle"} <= {layer["id"] for layer in v.layer_list()}
+        written = tmp_path / "out" / frames[0].stem / "sky"
+        assert (written / "sky.json").is_file() and not list(written.glob("*.png"))
+        mine = json.loads((written / "sky.json").read_text())
+        ref = json.loads((sky_result / "sky" / "sky.json").read_text())
+        for key in ("sun_azimuth_deg", "sun_elevation_deg", "dolp_max", "rms_aolp_residual_deg", "sky_pixels"):
+            assert mine[key] == ref[key], key
+        with netCDF4.Dataset(sky_result / "sky" / "sky.nc") as ds:
+            x, y = 160, 120
+            px = v.pixel(x, y)["sky"]
+            assert np.float32(px["aolp_model_deg"]) == ds["aolp_model"][y, x]
+            assert np.float32(px["aolp_residual_deg"]) == ds["aolp_residual"][0, y, x]  # (channel, y, x)
+        # nothing written beside the frames
+        assert sorted((sky_result / "sky-bracket").iterdir()) == frames
+    finally:
+        wb.sock.close()
+        wb.session.close()
+
+
+def test_sky_options_with_a_folder_are_one_clear_error(sky_result, tmp_path):
+    with pytest.raises(InputError, match="run 'polarsky sky' and open its output folder"):
+        prepare([sky_result / "sky-bracket"], tmp_path, **_sky_options())
+
+
 def test_a_folder_of_results_and_a_folder_of_frames(sky_result, bracket, tmp_path):
     import shutil
 
