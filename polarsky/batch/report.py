@@ -19,6 +19,7 @@ from pathlib import Path
 
 import numpy as np
 
+from .._shared.stats import percentile
 from ..palette import rgb
 
 __all__ = ["make_thumbnails", "write_report", "axis_endpoints"]
@@ -69,16 +70,26 @@ def _frame_preview(frame, px: int):
             return None
     linear = not (frame.kind == "image" and frame.data.dtype == np.uint8)  # read_frame's transfer "auto"
     step = max(1, int(max(frame.data.shape[1:]) // (2 * px)))
-    a = frame.data[:, ::step, ::step].astype(np.float32).mean(axis=0) / np.float32(frame.full_scale)
-    lo, hi = np.nanpercentile(a, [0.5, 99.5]) if a.size else (0.0, 1.0)
-    a = np.clip((a - lo) / max(hi - lo, 1e-12), 0, 1)
-    if linear:  # linear data: lift the shadows for viewing
-        a = a ** (1 / 2.2)
-    img = Image.fromarray((a * 255 + 0.5).astype(np.uint8)).convert("RGB")
+    d = frame.data[:, ::step, ::step]
+    a = d[0].astype(np.float32) if d.shape[0] == 1 else d.astype(np.float32).mean(axis=0)
+    a *= np.float32(1.0 / frame.full_scale)
+    # the display range from a sparse sample (a thumbnail's contrast, not a measurement)
+    sample = a[::3, ::3]
+    sample = sample[np.isfinite(sample)]
+    lo, hi = (percentile(sample, 0.5), percentile(sample, 99.5)) if sample.size else (0.0, 1.0)
+    a -= np.float32(lo)
+    a *= np.float32(1.0 / max(hi - lo, 1e-12))
+    np.clip(a, 0, 1, out=a)
+    if linear:  # linear data: lift the shadows for viewing, through a 4096-entry table
+        lut = ((np.arange(4096, dtype=np.float32) / 4095) ** (1 / 2.2) * 255 + 0.5).astype(np.uint8)
+        codes = lut[(a * 4095 + 0.5).astype(np.uint16)]
+    else:
+        codes = (a * 255 + 0.5).astype(np.uint8)
+    img = Image.fromarray(codes)  # grey: resized as one channel, then made RGB for the coloured axis
     if max(img.size) < px:  # small frames: enlarge (nearest) so the axis line stays visible
         k = px / max(img.size)
         img = img.resize((max(1, round(img.width * k)), max(1, round(img.height * k))), Image.NEAREST)
-    return _shrink(img, px)
+    return _shrink(img, px).convert("RGB")
 
 
 def make_thumbnails(folder, frames=(), *, px: int = 240, best_angle_deg=None, pictures=None,

@@ -222,8 +222,9 @@ class StokesWriter:
         Full scale of the Stokes values (the rules that are relative to it).
     threads : int, optional
         Threads that quantize and compress chunks while the caller computes the next block
-        (default: up to 4, at most the CPU count); 0 compresses in the calling thread (a
-        batch worker process that has one core to itself gains nothing from threads).
+        (default: up to 4, at most the threads polarsky may use, ``POLARSKY_THREADS`` or the
+        CPU count; when that is 1, none); 0 compresses in the calling thread (a batch worker
+        process that has one core to itself gains nothing from threads).
     """
 
     def __init__(self, path, *, shape, channels, names, rows, attrs, precision=None, full_scale=1.0, threads=None):
@@ -248,7 +249,12 @@ class StokesWriter:
                 extra["_QuantizeBitRoundNumberOfSignificantBits"] = np.int32(rule.bits)
             self.file.variable(name, ("channel", "y", "x"), "f4", units=units, long_name=long_name, chunks=chunks,
                                fill=np.float32(np.nan), attrs=extra)
-        n_threads = max(1, min(4, os.cpu_count() or 1)) if threads is None else int(threads)
+        if threads is None:
+            from .._shared.threads import thread_count
+
+            allowed = thread_count()
+            threads = 0 if allowed <= 1 else min(4, allowed)
+        n_threads = int(threads)
         self._pool = ThreadPoolExecutor(max_workers=n_threads) if n_threads > 0 else _InlinePool()
         self._pending: list = []
 
