@@ -349,6 +349,6 @@ def encode_png(rgb: np.ndarray) -> bytes:
 
 
 def write_png(path, rgb: np.ndarray) -> Path:
-    """Encode ``rgb`` (H, W, 3) uint8 as PNG and write it."""
+    """Encode ``rgb`` (H, W, 3) RGB or (H, W, 4) RGBA uint8 as PNG and write it."""
     Path(path).write_bytes(encode_png(rgb))
     return Path(path)

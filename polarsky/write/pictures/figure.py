@@ -27,11 +27,21 @@ def new_figure(width_in=8.0, height_in=6.0, *, layout="constrained"):
 
 
 def save_figure(fig, path) -> Path:
+    """Render ``fig`` on the Agg canvas and write it as PNG.
+
+    The pixels are those ``fig.savefig(path, dpi=DPI)`` writes (the figure is made at
+    :data:`DPI`); the PNG is written by :func:`.canvas.write_png` (ISA-L deflate, Up filter),
+    several times faster than Pillow's encoder on these pictures.
+    """
     from matplotlib.backends.backend_agg import FigureCanvasAgg
 
-    FigureCanvasAgg(fig)
-    fig.savefig(path, dpi=DPI, pil_kwargs={"compress_level": 3})
-    return Path(path)
+    from .canvas import write_png
+
+    canvas = FigureCanvasAgg(fig)
+    if fig.dpi != DPI:
+        fig.set_dpi(DPI)
+    canvas.draw()
+    return write_png(path, np.asarray(canvas.buffer_rgba()))
 
 
 def checker(shape, cell: int = 6) -> np.ndarray:

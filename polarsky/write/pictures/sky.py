@@ -141,12 +141,26 @@ def save_sky_pictures(out_dir, *, geom, bands, observed_dolp, observed_aolp, mod
          "DoLP residual (sky pixels used)"),
     ]
     names = []
+    # one figure for the six maps: the frame and the marks are the same in each (drawn once);
+    # each picture swaps the image, the key and the title, and is laid out on its own
+    fig = ax = im = sm = cb = None
     for fname, arr, show, cmap_name, (vmin, vmax), key, title in specs:
-        fig, ax = sky_frame(h, w, title + ("\n" + summary_line if summary_line else ""))
-        ax.imshow(shown_rgb(arr, show, cmap_name, vmin, vmax), extent=extent, interpolation="nearest")
-        sm = mpl.cm.ScalarMappable(norm=mpl.colors.Normalize(vmin, vmax), cmap=mpl.colormaps[cmap_name])
-        fig.colorbar(sm, ax=ax, fraction=0.046, pad=0.03, label=key)
-        draw_sky_marks(ax, geom, scat, bands, st, (h, w))
+        title = title + ("\n" + summary_line if summary_line else "")
+        rgb = shown_rgb(arr, show, cmap_name, vmin, vmax)
+        norm, cmap = mpl.colors.Normalize(vmin, vmax), mpl.colormaps[cmap_name]
+        if fig is None:
+            fig, ax = sky_frame(h, w, title)
+            im = ax.imshow(rgb, extent=extent, interpolation="nearest")
+            sm = mpl.cm.ScalarMappable(norm=norm, cmap=cmap)
+            cb = fig.colorbar(sm, ax=ax, fraction=0.046, pad=0.03, label=key)
+            draw_sky_marks(ax, geom, scat, bands, st, (h, w))
+        else:
+            im.set_data(rgb)
+            sm.set_norm(norm)
+            sm.set_cmap(cmap)
+            cb.update_normal(sm)
+            cb.set_label(key)
+            ax.set_title(title, fontsize=9)
         save_figure(fig, out_dir / fname)
         names.append(fname)
     # the mask
