@@ -79,30 +79,15 @@ def load_frames(frames, settings, *, sky_folder=None, sky_out=None) -> Result:
         names = [n for n in VARIABLES if n != "residual" or src.n_analyzers > 3]
         mem = MemorySink(src.shape, len(src.channels), names)
         run_blocks(src, op.noise, [mem])
-    result = Result(arrays=mem.arrays, channels=list(src.channels), facts=op.facts,
-                    rows=block_rows(src.shape, len(src.channels)), extinction=settings.estimate.extinction,
-                    warnings=caught.messages(), sky=_sky(sky_folder))
-    if sky_out is not None:
-        result.sky = compare_sky(result, frames, settings, sky_out)
-    return result
+    if sky_out is not None:  # the comparison 'polarsky sky' makes, from these products (no pictures)
+        from ..tasks.sky import products_in_memory, run_sky
 
-
-def compare_sky(result: Result, frames, settings, folder) -> dict:
-    """Compare a bracket's estimate in memory with the clear-sky model into ``folder`` (the
-    ``sky.json`` and ``sky.nc`` of :func:`polarsky.tasks.sky.run_sky`, no pictures: the page
-    shows the layers) and return the comparison as :func:`_sky` reads it."""
-    import numpy as np
-
-    from ..tasks.sky import run_sky
-
-    a, facts = result.arrays, result.facts
-    products = {"S": np.stack([a["S0"], a["S1"], a["S2"]]), "dolp": a["dolp"], "aolp": a["aolp"], "valid": a["valid"],
-                "channels": result.channels, "inputs": facts.get("inputs"),
-                "attrs": {k: facts.get(k) for k in ("polarizer", "analysis_matrix", "analyzer_angles_deg",
-                                                    "orientation")}}
-    run_sky(list(frames), folder, settings.replace({"pictures": False}), stokes=products,
-            warnings=list(result.warnings))
-    return _sky(folder)
+        run_sky(list(frames), sky_out, settings.replace({"pictures": False}), stokes=products_in_memory(mem, op),
+                warnings=caught.messages())
+        sky_folder = sky_out
+    return Result(arrays=mem.arrays, channels=list(src.channels), facts=op.facts,
+                  rows=block_rows(src.shape, len(src.channels)), extinction=settings.estimate.extinction,
+                  warnings=caught.messages(), sky=_sky(sky_folder))
 
 
 def load_stokes(path, *, sky_folder=None) -> Result:

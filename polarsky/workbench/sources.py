@@ -52,9 +52,10 @@ def _stokes_loader(path, sky_folder=None):
     return load
 
 
-def bracket_entry_args(frames, settings, *, name=None, label=None, note="", sky_out=None) -> dict:
+def bracket_entry_args(frames, settings, *, name=None, label=None, note="", sky_root=None) -> dict:
     """Keyword arguments of :meth:`Session.add` for a bracket of frames (``settings``: a Settings);
-    with ``sky_out`` (a folder) the bracket is compared with the clear-sky model into it."""
+    with ``sky_root`` (a folder) the bracket is compared with the clear-sky model into
+    ``sky_root/<name>/sky``."""
     frames = [str(f) for f in frames]
     manifest = settings.read.manifest
     if name is None:
@@ -62,7 +63,11 @@ def bracket_entry_args(frames, settings, *, name=None, label=None, note="", sky_
     if label is None:
         label = (f"{Path(frames[0]).name} .. {Path(frames[-1]).name} ({len(frames)} frames)" if len(frames) > 1
                  else Path(frames[0]).name if frames else f"manifest {manifest}")
-    if sky_out is not None:
+    sky_out = None
+    if sky_root is not None:
+        from ..batch.discover import safe_name
+
+        sky_out = Path(sky_root) / safe_name(name) / "sky"
         note = (note + "; " if note else "") + f"sky comparison written to {sky_out}"
     return {"name": name, "label": label, "kind": "bracket", "load": _frames_loader(frames, settings, sky_out=sky_out),
             "recipe": {"frames": frames, "settings": settings}, "note": note}
@@ -188,12 +193,7 @@ def add_paths(session, paths, settings) -> None:
                          "given as frames with the clear-sky model; for folders, run 'polarsky sky' and open "
                          "its output folder")
     if frames or (settings.read.manifest is not None and not folders):
-        args = bracket_entry_args(frames, settings)
-        if sky:
-            from ..batch.discover import safe_name
-
-            args = bracket_entry_args(frames, settings, sky_out=session.out_dir / safe_name(args["name"]) / "sky")
-        session.add(**args)
+        session.add(**bracket_entry_args(frames, settings, sky_root=session.out_dir if sky else None))
     for f in folders:
         folder = Path(f)
         if _is_result(folder):
