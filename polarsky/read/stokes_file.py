@@ -20,10 +20,16 @@ _JSON_ATTRS = ("analysis_matrix", "calibration", "inputs", "analyzer_angles_deg"
                "exposure_scale")
 
 
+#: attribute names files of earlier versions wrote -> today's names (the glossary's)
+_EARLIER_NAMES = {"mosaic_colour": "mosaic_color"}
+
+
 def decode_attrs(attrs: dict) -> dict:
-    """Attributes with their JSON text decoded (lists, objects)."""
+    """Attributes with their JSON text decoded (lists, objects), under today's names (a file
+    written by an earlier version reads as a new one)."""
     out = {}
     for k, v in attrs.items():
+        k = _EARLIER_NAMES.get(k, k)
         if isinstance(v, bytes):
             v = v.decode()
         if isinstance(v, np.ndarray) and v.size == 1:

@@ -148,6 +148,19 @@ def test_calibration_for_another_sensor_or_layout(tmp_path):
                                   calibration=cal)
 
 
+def test_a_calibration_written_under_the_earlier_attribute_name_reads_as_today(tmp_path):
+    """Files of an earlier version named the Bayer order ``mosaic_colour``; the reader gives
+    today's name, so a colour calibration is still matched against --mosaic-color."""
+    import h5py
+
+    fit, _ = _fit(noise=0.0)
+    path = write_calibration(tmp_path / "calibration.nc", flat_calibration(fit))
+    with h5py.File(path, "r+") as f:
+        f.attrs["mosaic_colour"] = "RGGB"
+    cal = read_calibration(path)
+    assert cal.attrs["mosaic_color"] == "RGGB" and "mosaic_colour" not in cal.attrs
+
+
 @pytest.mark.parametrize("angles, match", [
     ([0, 90, 180, 270], "reference-polarizer angles .* hold only 2 distinct"),
     ([0, 60], "2 calibration frames but 2 angles|only 2 distinct"),
